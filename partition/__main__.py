@@ -1,0 +1,4 @@
+"""``python -m partition`` runs the crewcut command line."""
+from .cli import main
+
+raise SystemExit(main())

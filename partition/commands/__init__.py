@@ -1,0 +1,1 @@
+"""One module per sub-command. Each defines NAME, HELP, add_arguments(parser) and run(args, ui) -> int."""

@@ -1,0 +1,272 @@
+"""Work profiles: speeds, service rules, turn penalties, shift limits and crews, from TOML.
+
+Parameters are validated up front, all of them, before any work starts: an
+unknown key, a wrong type or an impossible value raises :class:`InputError`
+naming the key and what is allowed.
+"""
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import dataclass, field
+from importlib import resources
+from pathlib import Path
+
+from .errors import InputError
+from .network import SERVICE_NAMES
+
+TURN_KINDS = ("u_turn", "across_traffic", "with_traffic", "straight")
+
+# Keys allowed in each table, with the type each value must have.
+_SCHEMA: dict[str, dict[str, type | tuple]] = {
+    "profile": {
+        "name": str,
+        "description": str,
+        "traffic": str,
+        "ignore_oneway": bool,
+        "shift_limit_min": (int, float),
+        "depot_snap_max_m": (int, float),
+    },
+    "turn_penalty_s": {k: (int, float) for k in TURN_KINDS},
+    "network": {"snap_tolerance_m": (int, float), "split_at_touch": bool},
+    "osm": {"highways": list},
+}
+_CLASS_TABLES = {
+    "service_speed_kmh": (int, float),
+    "deadhead_speed_kmh": (int, float),
+    "default_service": str,
+    "priority": int,
+}
+_CREW_KEYS = {"id": str, "depot": list, "depot_node": int, "shift_limit_min": (int, float)}
+
+
+@dataclass(frozen=True)
+class Crew:
+    """One crew: its id, its depot (lon/lat or node id) and its shift limit in minutes."""
+
+    id: str
+    shift_limit_min: float
+    depot_lonlat: tuple[float, float] | None = None
+    depot_node: int | None = None
+
+
+@dataclass(frozen=True)
+class Profile:
+    """Everything about how a kind of work is done. See ``configs/*.toml``."""
+
+    name: str = "curb-sweeping"
+    description: str = ""
+    traffic: str = "right"  # "right" or "left": which side vehicles drive on
+    ignore_oneway: bool = False  # walkers may go against one-way streets
+    shift_limit_min: float = 480.0
+    depot_snap_max_m: float = 500.0
+    turn_penalty_s: dict[str, float] = field(default_factory=lambda: {
+        "u_turn": 90.0, "across_traffic": 20.0, "with_traffic": 8.0, "straight": 0.0})
+    service_speed_kmh: dict[str, float] = field(default_factory=lambda: {"default": 8.0})
+    deadhead_speed_kmh: dict[str, float] = field(default_factory=lambda: {"default": 30.0})
+    default_service: dict[str, str] = field(default_factory=lambda: {"default": "both_sides"})
+    priority: dict[str, int] = field(default_factory=lambda: {"default": 1})
+    snap_tolerance_m: float = 1.0
+    split_at_touch: bool = True
+    osm_highways: tuple[str, ...] = (
+        "motorway", "trunk", "primary", "secondary", "tertiary", "unclassified",
+        "residential", "living_street", "service", "motorway_link", "trunk_link",
+        "primary_link", "secondary_link", "tertiary_link", "road")
+    crews: tuple[Crew, ...] = ()
+    source: str = "<built-in defaults>"
+
+    # ------------------------------------------------------------ lookups
+    def _by_class(self, table: dict, road_class: str):
+        return table.get(road_class, table["default"])
+
+    def service_speed(self, road_class: str) -> float:
+        return float(self._by_class(self.service_speed_kmh, road_class))
+
+    def deadhead_speed(self, road_class: str) -> float:
+        return float(self._by_class(self.deadhead_speed_kmh, road_class))
+
+    def service_for(self, road_class: str) -> str:
+        return str(self._by_class(self.default_service, road_class))
+
+    def priority_for(self, road_class: str) -> int:
+        return int(self._by_class(self.priority, road_class))
+
+    def to_dict(self) -> dict:
+        """Plain data, as recorded in plan files."""
+        return {
+            "name": self.name, "traffic": self.traffic, "ignore_oneway": self.ignore_oneway,
+            "shift_limit_min": self.shift_limit_min, "depot_snap_max_m": self.depot_snap_max_m,
+            "turn_penalty_s": dict(self.turn_penalty_s),
+            "service_speed_kmh": dict(self.service_speed_kmh),
+            "deadhead_speed_kmh": dict(self.deadhead_speed_kmh),
+            "default_service": dict(self.default_service), "priority": dict(self.priority),
+            "snap_tolerance_m": self.snap_tolerance_m, "split_at_touch": self.split_at_touch,
+        }
+
+
+def _type_name(t) -> str:
+    if isinstance(t, tuple):
+        return "a number"
+    return {str: "a string", bool: "true or false", int: "an integer", list: "a list"}[t]
+
+
+def _check_type(where: str, key: str, value, t) -> None:
+    ok = isinstance(value, t) and not (t != bool and t != (bool,) and isinstance(value, bool))
+    if not ok:
+        raise InputError(f"{where}: setting '{key}' must be {_type_name(t)}, got {value!r}")
+
+
+def _positive(where: str, key: str, value: float, allow_zero: bool = False) -> None:
+    if not math.isfinite(value) or value < 0 or (value == 0 and not allow_zero):
+        need = "zero or more" if allow_zero else "greater than zero"
+        raise InputError(f"{where}: setting '{key}' is {value!r}; it must be a finite number {need}")
+
+
+def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
+    """Validate a parsed TOML document and build a :class:`Profile`."""
+    allowed = set(_SCHEMA) | set(_CLASS_TABLES) | {"crews"}
+    for key in data:
+        if key not in allowed:
+            raise InputError(f"{source}: unknown table or key '{key}'",
+                             f"allowed at the top level: {', '.join(sorted(allowed))}")
+    kw: dict = {"source": source}
+    for table, keys in _SCHEMA.items():
+        sub = data.get(table, {})
+        if not isinstance(sub, dict):
+            raise InputError(f"{source}: '{table}' must be a table ([{table}])")
+        for key, value in sub.items():
+            if key not in keys:
+                raise InputError(f"{source}: unknown key '{table}.{key}'",
+                                 f"allowed in [{table}]: {', '.join(sorted(keys))}")
+            _check_type(source, f"{table}.{key}", value, keys[key])
+    p = data.get("profile", {})
+    for key in ("name", "description", "traffic", "ignore_oneway"):
+        if key in p:
+            kw[key] = p[key]
+    if kw.get("traffic", "right") not in ("right", "left"):
+        raise InputError(f"{source}: setting 'profile.traffic' is {kw['traffic']!r}",
+                         "use \"right\" (vehicles keep right) or \"left\"")
+    for key in ("shift_limit_min", "depot_snap_max_m"):
+        if key in p:
+            _positive(source, f"profile.{key}", float(p[key]))
+            kw[key] = float(p[key])
+    if "shift_limit_min" in kw and kw["shift_limit_min"] > 24 * 60:
+        raise InputError(f"{source}: setting 'profile.shift_limit_min' is {kw['shift_limit_min']:g} minutes, "
+                         "longer than a day", "give the shift length in minutes, e.g. 480 for 8 hours")
+    tp = data.get("turn_penalty_s", {})
+    if tp:
+        pen = dict(Profile().turn_penalty_s)
+        for key, value in tp.items():
+            _positive(source, f"turn_penalty_s.{key}", float(value), allow_zero=True)
+            pen[key] = float(value)
+        kw["turn_penalty_s"] = pen
+    net = data.get("network", {})
+    if "snap_tolerance_m" in net:
+        _positive(source, "network.snap_tolerance_m", float(net["snap_tolerance_m"]), allow_zero=True)
+        kw["snap_tolerance_m"] = float(net["snap_tolerance_m"])
+    if "split_at_touch" in net:
+        kw["split_at_touch"] = net["split_at_touch"]
+    if "highways" in data.get("osm", {}):
+        hw = data["osm"]["highways"]
+        if not hw or not all(isinstance(h, str) for h in hw):
+            raise InputError(f"{source}: 'osm.highways' must be a non-empty list of highway values")
+        kw["osm_highways"] = tuple(hw)
+    for table, t in _CLASS_TABLES.items():
+        sub = data.get(table)
+        if sub is None:
+            continue
+        if not isinstance(sub, dict):
+            raise InputError(f"{source}: '{table}' must be a table of road class = value")
+        out = {}
+        for cls, value in sub.items():
+            _check_type(source, f"{table}.{cls}", value, t)
+            if table.endswith("_kmh"):
+                _positive(source, f"{table}.{cls}", float(value))
+                if value > 200:
+                    raise InputError(f"{source}: setting '{table}.{cls}' is {value} km/h, not a working speed",
+                                     "give speeds in km/h, between 0 and 200")
+                value = float(value)
+            if table == "default_service" and value not in SERVICE_NAMES:
+                raise InputError(f"{source}: setting '{table}.{cls}' is {value!r}",
+                                 f"allowed: {', '.join(SERVICE_NAMES)}")
+            out[cls] = value
+        if "default" not in out:
+            out["default"] = getattr(Profile(), table)["default"]
+        kw[table] = out
+    crews = data.get("crews", [])
+    if not isinstance(crews, list):
+        raise InputError(f"{source}: 'crews' must be an array of tables ([[crews]])")
+    shift = kw.get("shift_limit_min", Profile.shift_limit_min)
+    seen: set[str] = set()
+    built = []
+    for i, c in enumerate(crews):
+        where = f"{source}: crews[{i}]"
+        if not isinstance(c, dict):
+            raise InputError(f"{where} must be a table")
+        for key, value in c.items():
+            if key not in _CREW_KEYS:
+                raise InputError(f"{where}: unknown key '{key}'", f"allowed: {', '.join(_CREW_KEYS)}")
+            _check_type(where, key, value, _CREW_KEYS[key])
+        if "id" not in c or not c["id"].strip():
+            raise InputError(f"{where} has no 'id'", "give each crew a unique id, e.g. id = \"north\"")
+        cid = c["id"].strip()
+        if cid in seen:
+            raise InputError(f"{where}: crew id '{cid}' is used twice", "crew ids must be unique")
+        seen.add(cid)
+        limit = float(c.get("shift_limit_min", shift))
+        _positive(where, "shift_limit_min", limit)
+        if limit > 24 * 60:
+            raise InputError(f"{where}: shift_limit_min {limit:g} is longer than a day",
+                             "give the shift length in minutes, e.g. 480 for 8 hours")
+        lonlat = None
+        if "depot" in c:
+            d = c["depot"]
+            if len(d) != 2 or not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in d):
+                raise InputError(f"{where}: 'depot' must be [lon, lat], got {d!r}")
+            lonlat = (float(d[0]), float(d[1]))
+            if not (-180 <= lonlat[0] <= 180 and -90 <= lonlat[1] <= 90):
+                raise InputError(f"{where}: depot {list(lonlat)} is not a lon/lat position",
+                                 "give [longitude, latitude] in degrees, longitude first")
+        node = c.get("depot_node")
+        if lonlat is None and node is None:
+            raise InputError(f"{where} ('{cid}') has no depot", "add depot = [lon, lat] or depot_node = N")
+        built.append(Crew(id=cid, shift_limit_min=limit, depot_lonlat=lonlat, depot_node=node))
+    kw["crews"] = tuple(built)
+    return Profile(**kw)
+
+
+def load_profile(path: str | Path | None) -> Profile:
+    """Read a TOML profile; ``None`` gives the built-in curb-sweeping profile."""
+    if path is None:
+        return builtin_profile("curb-sweeping")
+    path = Path(path)
+    if not path.is_file():
+        names = ", ".join(builtin_profile_names())
+        raise InputError(f"config file '{path}' not found", f"give a TOML file; shipped profiles: {names}")
+    try:
+        data = tomllib.loads(path.read_text(encoding="utf-8"))
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(f"{path}: not valid TOML ({exc})") from None
+    return profile_from_dict(data, source=str(path))
+
+
+def _configs_dir() -> Path:
+    try:  # installed: configs/ is shipped as the package solve.configs
+        return Path(str(resources.files("solve.configs")))
+    except ModuleNotFoundError:  # running from a source checkout
+        return Path(__file__).resolve().parent.parent / "configs"
+
+
+def builtin_profile_names() -> list[str]:
+    return sorted(p.stem for p in _configs_dir().glob("*.toml"))
+
+
+def builtin_profile_path(name: str) -> Path:
+    path = _configs_dir() / f"{name}.toml"
+    if not path.is_file():
+        raise InputError(f"no shipped profile named '{name}'", f"shipped: {', '.join(builtin_profile_names())}")
+    return path
+
+
+def builtin_profile(name: str) -> Profile:
+    return load_profile(builtin_profile_path(name))

@@ -1,0 +1,94 @@
+"""Plain-data results of the one-crew route engine."""
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass, field
+
+import numpy as np
+
+# Turn kinds at the start of a traversal. "start" for the first traversal out of
+# the depot; "unknown" where the network has no geometry to tell.
+TURNS = ("start", "straight", "with_traffic", "across_traffic", "u_turn", "unknown")
+
+
+@dataclass(frozen=True)
+class Traversal:
+    """One drive along one segment, in one direction."""
+
+    segment: int
+    from_node: int
+    to_node: int
+    service: bool  # True: does the work (serves one pass); False: deadhead
+    metres: float
+    minutes: float  # driving or service minutes, without the turn
+    turn: str = "start"  # the turn made onto this segment, one of TURNS
+    turn_minutes: float = 0.0
+
+
+@dataclass(frozen=True)
+class Augmentation:
+    """What an Eulerization added, and what it cost.
+
+    ``arcs``: indices into the deadhead arc arrays, one per added traversal
+    (repeats allowed). ``orientation``: for each undirected task, True when it is
+    driven from its ``tail`` to its ``head``. ``cost``: minutes of the added
+    deadhead. ``lower_bound``: a proven lower bound on the least possible added
+    cost (equal to ``cost`` when ``exact``).
+    """
+
+    arcs: np.ndarray
+    orientation: np.ndarray
+    cost: float
+    lower_bound: float
+    method: str
+    exact: bool
+
+
+@dataclass(frozen=True)
+class RouteTotals:
+    service_km: float
+    service_min: float
+    deadhead_km: float
+    deadhead_min: float
+    turn_min: float
+    total_min: float
+    u_turns: int
+    across_turns: int
+
+    @staticmethod
+    def of(traversals: tuple[Traversal, ...] | list[Traversal]) -> "RouteTotals":
+        s_km = sum(t.metres for t in traversals if t.service) / 1000.0
+        d_km = sum(t.metres for t in traversals if not t.service) / 1000.0
+        s_min = sum(t.minutes for t in traversals if t.service)
+        d_min = sum(t.minutes for t in traversals if not t.service)
+        t_min = sum(t.turn_minutes for t in traversals)
+        return RouteTotals(
+            service_km=s_km, service_min=s_min, deadhead_km=d_km, deadhead_min=d_min,
+            turn_min=t_min, total_min=s_min + d_min + t_min,
+            u_turns=sum(t.turn == "u_turn" for t in traversals),
+            across_turns=sum(t.turn == "across_traffic" for t in traversals))
+
+
+@dataclass(frozen=True)
+class Route:
+    """A closed walk from ``depot`` serving every required pass it was given.
+
+    ``lower_bound_min``: a proven lower bound on the total minutes of any route
+    serving the same passes from the same depot (turns excluded);
+    ``gap = total_min / lower_bound_min - 1``.
+    """
+
+    depot: int
+    traversals: tuple[Traversal, ...]
+    totals: RouteTotals
+    method: str
+    exact: bool
+    lower_bound_min: float
+    stats: dict = field(default_factory=dict)
+
+    @property
+    def gap(self) -> float:
+        lb = self.lower_bound_min
+        return 0.0 if lb <= 0 else self.totals.total_min / lb - 1.0
+
+    def to_dict(self) -> dict:
+        return asdict(self)
