@@ -65,6 +65,7 @@ class RawLine:
     from_label: str | None = None
     to_label: str | None = None
     length_m: float | None = None
+    closed: bool = False  # cannot be driven or served (works, event)
 
 
 @dataclass(frozen=True, eq=False)

@@ -1,0 +1,65 @@
+"""Street network readers: one entry point, dispatching on the file's extension.
+
+=================== ============================================== ==========================
+extension           format                                         module
+=================== ============================================== ==========================
+.geojson, .json     RFC 7946 FeatureCollection of (Multi)LineString :mod:`solve.readers.geojson`
+.osm                OpenStreetMap XML                               :mod:`solve.readers.osm`
+.osm.pbf, .pbf      OpenStreetMap protocol buffer binary            :mod:`solve.readers.osm`
+.csv                edge list ``from,to,length_m[,...]``            :mod:`solve.readers.csvedges`
+=================== ============================================== ==========================
+
+Every reader produces :class:`~solve.network.RawLine` objects and hands them to
+:func:`solve.repair.build_network`. Files are only read, never written.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+from ..errors import InputError
+from ..network import Network
+from ..profile import Profile
+
+ALLOWED = ".geojson, .json, .osm, .osm.pbf, .pbf, .csv"
+
+
+def file_kind(path: str | Path) -> str:
+    """'geojson', 'osm', 'pbf' or 'csv' from the file name; InputError otherwise."""
+    name = Path(path).name.lower()
+    if name.endswith((".geojson", ".json")):
+        return "geojson"
+    if name.endswith(".pbf"):
+        return "pbf"
+    if name.endswith(".osm"):
+        return "osm"
+    if name.endswith(".csv"):
+        return "csv"
+    ext = "".join(Path(path).suffixes[-2:]) or "(none)"
+    raise InputError(f"{path}: cannot read files with extension '{ext}'",
+                     f"give a street network as one of: {ALLOWED}")
+
+
+def read_network(path: str | Path, profile: Profile) -> Network:
+    """Read a street network file and repair its topology.
+
+    Raises :class:`~solve.errors.InputError` for a missing file, an unknown
+    extension or any problem in the data, naming the feature concerned.
+    """
+    path = Path(path)
+    if not path.exists():
+        raise InputError(f"street network file '{path}' not found",
+                         "check the path; the file must exist and be readable")
+    if not path.is_file():
+        raise InputError(f"'{path}' is not a file", f"give a street network file ({ALLOWED})")
+    kind = file_kind(path)
+    if kind == "geojson":
+        from .geojson import read_geojson
+
+        return read_geojson(path, profile)
+    if kind == "csv":
+        from .csvedges import read_csv_edges
+
+        return read_csv_edges(path, profile)
+    from .osm import read_osm
+
+    return read_osm(path, profile)

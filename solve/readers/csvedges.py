@@ -1,0 +1,93 @@
+"""CSV edge list reader, for networks without geometry.
+
+The first row is a header. Required columns: ``from``, ``to`` (node labels, any
+text) and ``length_m`` (metres, greater than zero). Optional columns: ``id``
+(source id, default ``row N`` with N the file's line number), ``oneway``
+(as in GeoJSON: yes/no/-1/true/false/1/0; ``-1`` means from ``to`` to ``from``),
+``name``, ``service``, ``class``, ``speed_kmh``, ``closed``. Other columns are
+ignored. The network has no coordinates: node lon/lat are NaN and
+``has_geometry`` is False.
+"""
+from __future__ import annotations
+
+import csv
+import io
+import math
+from pathlib import Path
+
+from ..errors import InputError
+from ..network import Network, RawLine
+from ..profile import Profile
+from ..repair import build_network
+from .geojson import parse_closed, parse_oneway, parse_service, parse_speed
+
+REQUIRED = ("from", "to", "length_m")
+OPTIONAL = ("id", "oneway", "name", "service", "class", "speed_kmh", "closed")
+
+
+def read_csv_edges(path: str | Path, profile: Profile) -> Network:
+    """Read a CSV edge list into a :class:`~solve.network.Network` without geometry."""
+    path = Path(path)
+    try:
+        text = path.read_bytes().decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise InputError(f"{path}: not a UTF-8 text file", "save the CSV as UTF-8") from None
+    except OSError as exc:
+        raise InputError(f"{path}: cannot be read ({exc.strerror})") from None
+    reader = csv.reader(io.StringIO(text, newline=""))
+    header = next(reader, None)
+    if not header or not any(h.strip() for h in header):
+        raise InputError(f"{path}: empty file, no header row",
+                         f"the first row must name the columns: {','.join(REQUIRED)}[,{','.join(OPTIONAL)}]")
+    cols = [h.strip().lower() for h in header]
+    missing = [c for c in REQUIRED if c not in cols]
+    if missing:
+        raise InputError(f"{path}: header has no column {', '.join(repr(c) for c in missing)} "
+                         f"(found: {', '.join(cols)})",
+                         f"the header must contain {','.join(REQUIRED)}; optional: {','.join(OPTIONAL)}")
+    pos = {c: cols.index(c) for c in REQUIRED + OPTIONAL if c in cols}
+    lines: list[RawLine] = []
+    for row in reader:
+        rownum = reader.line_num
+        if not row or not any(cell.strip() for cell in row):
+            continue  # blank line
+        where = f"{path}: row {rownum}"
+
+        def cell(col: str, _row=row, _where=where) -> str | None:
+            j = pos.get(col)
+            if j is None:
+                return None
+            if j >= len(_row):
+                if col in REQUIRED:
+                    raise InputError(f"{_where} has no value for column '{col}' "
+                                     f"({len(_row)} values, the header has {len(cols)})",
+                                     "give every row a value for each column of the header")
+                return None
+            return _row[j].strip()
+
+        a, b, raw_len = cell("from"), cell("to"), cell("length_m")
+        for col, val in (("from", a), ("to", b)):
+            if not val:
+                raise InputError(f"{where}: column '{col}' is empty", "give both end labels of every edge")
+        try:
+            length = float(raw_len)
+        except ValueError:
+            raise InputError(f"{where}: length_m {raw_len!r} is not a number",
+                             "give the length in metres, e.g. 125.4") from None
+        if not math.isfinite(length) or length <= 0:
+            raise InputError(f"{where}: length_m is {raw_len!r}; it must be a finite number greater than zero",
+                             "give the edge's real length in metres, or remove the row")
+        sid = cell("id") or f"row {rownum}"
+        if a == b:
+            raise InputError(f"{where}: edge '{sid}' is a self-loop (from and to are both '{a}')",
+                             "a street must join two different nodes; split the loop into two edges")
+        oneway = parse_oneway(cell("oneway") or None, where)
+        if oneway == -1:
+            a, b = b, a
+        lines.append(RawLine(
+            source_id=sid, coords=None, name=cell("name") or "", road_class=cell("class") or "",
+            oneway=1 if oneway else 0, service=parse_service(cell("service"), where),
+            speed_kmh=parse_speed(cell("speed_kmh") or None, where),
+            closed=parse_closed(cell("closed") or None, where),
+            from_label=a, to_label=b, length_m=length))
+    return build_network(lines, profile, has_geometry=False)

@@ -1,0 +1,143 @@
+"""OpenStreetMap reader (``.osm`` XML and ``.osm.pbf``) through pyosmium.
+
+Which ways are kept (drivable streets):
+
+* ``highway`` is one of the profile's ``osm.highways`` values;
+* not ``area=yes`` (squares and plazas drawn as polygons are not streets);
+* not ``access=no`` or ``access=private``: a crew does not serve private roads
+  unless the owner says so; add such ways to a GeoJSON file if it does.
+
+Direction: ``oneway=yes``/``1``/``true`` is one-way in the drawn direction,
+``oneway=-1`` one-way against it (the line is reversed);
+``junction=roundabout``/``circular`` and ``highway=motorway`` imply one-way
+unless ``oneway=no`` says otherwise (OpenStreetMap's own convention). Other
+oneway values (``reversible``, ``alternating``) count as two-way.
+
+Ways are split into segments at their ends and at every node used twice or more
+by the kept ways (intersections; a node repeated inside one way too). A closed
+way with no other junction is split at its middle vertex so that no segment is
+a self-loop. Nodes missing from the file (an extract cut at its border) break a
+way; the part beyond is left out with a warning. Every segment keeps
+``way/ID`` as its source id and ``node/ID`` labels for its end nodes.
+
+OpenStreetMap topology is explicit (shared node ids), so no snapping by distance
+and no split-at-touch is applied; only nodes at identical coordinates merge.
+Road class is the highway value; service is the profile's default for it.
+"""
+from __future__ import annotations
+
+import dataclasses
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import InputError
+from ..network import Finding, Network, RawLine
+from ..profile import Profile
+from ..repair import build_network
+
+ONEWAY_YES = ("yes", "1", "true")
+IMPLIED_ONEWAY_JUNCTIONS = ("roundabout", "circular")
+EXCLUDED_ACCESS = ("no", "private")
+
+
+def way_is_drivable(tags, highways) -> bool:
+    """The keep rule above, on a tag mapping (``osmium`` TagList or dict)."""
+    return (tags.get("highway") in highways and tags.get("area") != "yes"
+            and tags.get("access") not in EXCLUDED_ACCESS)
+
+
+def way_direction(tags) -> int:
+    """1 one-way as drawn, -1 one-way against the drawing, 0 two-way."""
+    ow = tags.get("oneway")
+    if ow in ONEWAY_YES:
+        return 1
+    if ow == "-1":
+        return -1
+    if ow is None and (tags.get("junction") in IMPLIED_ONEWAY_JUNCTIONS or tags.get("highway") == "motorway"):
+        return 1
+    return 0
+
+
+def _collect(path: Path, highways: frozenset) -> list[tuple]:
+    import osmium
+
+    ways = []
+    try:
+        proc = osmium.FileProcessor(str(path), osmium.osm.NODE | osmium.osm.WAY).with_locations()
+        for obj in proc:
+            if not obj.is_way():
+                continue
+            tags = obj.tags
+            if not way_is_drivable(tags, highways):
+                continue
+            refs, lon, lat = [], [], []
+            for nd in obj.nodes:
+                refs.append(nd.ref)
+                loc = nd.location
+                if loc.valid():
+                    lon.append(loc.lon)
+                    lat.append(loc.lat)
+                else:
+                    lon.append(np.nan)
+                    lat.append(np.nan)
+            ways.append((obj.id, np.asarray(refs, np.int64), np.column_stack([lon, lat]) if refs else None,
+                         tags.get("highway"), tags.get("name", ""), way_direction(tags)))
+    except RuntimeError as exc:
+        raise InputError(f"{path}: not a readable OpenStreetMap file ({exc})",
+                         "check that the file is complete and really .osm XML or .osm.pbf; download it again") from None
+    return ways
+
+
+def read_osm(path: str | Path, profile: Profile) -> Network:
+    """Read drivable streets from an OpenStreetMap file into a :class:`~solve.network.Network`."""
+    path = Path(path)
+    ways = _collect(path, frozenset(profile.osm_highways))
+    findings: list[Finding] = []
+    # drop consecutive repeats and break ways at nodes without a location
+    runs = []
+    cut_ways = []
+    for wid, refs, ll, hw, name, direction in ways:
+        if refs.size < 2:
+            continue
+        keep = np.ones(refs.size, bool)
+        keep[1:] = refs[1:] != refs[:-1]
+        refs, ll = refs[keep], ll[keep]
+        valid = np.isfinite(ll[:, 0])
+        if not valid.all():
+            cut_ways.append(wid)
+        breaks = np.flatnonzero(np.diff(valid.astype(np.int8)) != 0) + 1
+        for a, b in zip(np.r_[0, breaks], np.r_[breaks, refs.size]):
+            if valid[a] and b - a >= 2:
+                runs.append((wid, refs[a:b], ll[a:b], hw, name, direction))
+    if cut_ways:
+        findings.append(Finding(
+            "warning", f"way/{cut_ways[0]}",
+            f"{len(cut_ways)} way(s) use nodes that are not in the file (an extract cut at its border); "
+            f"only their parts inside were read (first: {', '.join(f'way/{w}' for w in cut_ways[:5])})",
+            "use an extract that covers the whole working area with a margin"))
+    if not runs:
+        return build_network([], profile, findings=findings)
+    all_refs = np.concatenate([r[1] for r in runs])
+    uniq, counts = np.unique(all_refs, return_counts=True)
+    junction = set(uniq[counts >= 2].tolist())
+    lines: list[RawLine] = []
+    for wid, refs, ll, hw, name, direction in runs:
+        if direction == -1:
+            refs, ll = refs[::-1], ll[::-1]
+        k = refs.size
+        cuts = [0] + [i for i in range(1, k - 1) if int(refs[i]) in junction] + [k - 1]
+        for a, b in zip(cuts[:-1], cuts[1:]):
+            pieces = [(a, b)]
+            if refs[a] == refs[b]:  # a loop with no junction inside: halve it
+                if b - a < 2:
+                    continue
+                mid = (a + b) // 2
+                pieces = [(a, mid), (mid, b)]
+            for s, e in pieces:
+                lines.append(RawLine(
+                    source_id=f"way/{wid}", coords=ll[s:e + 1].copy(), name=name, road_class=hw,
+                    oneway=1 if direction else 0, from_label=f"node/{int(refs[s])}",
+                    to_label=f"node/{int(refs[e])}"))
+    exact = dataclasses.replace(profile, snap_tolerance_m=0.0, split_at_touch=False)
+    return build_network(lines, exact, findings=findings)
