@@ -1,0 +1,28 @@
+"""``crewcut export PLAN --format geojson|gpx|csv``: the plan for GIS and navigation devices."""
+from __future__ import annotations
+
+import sys
+
+from ..exports import FORMATS, export
+from ..planfile import atomic_write
+from ..planview import load
+
+NAME = "export"
+HELP = "export a plan as GeoJSON (territories and routes), GPX 1.1 (one route per crew) or CSV (per segment)"
+
+
+def add_arguments(p) -> None:
+    p.add_argument("plan", metavar="PLAN", help="plan.json written by 'crewcut plan' or 'crewcut route'")
+    p.add_argument("--format", choices=FORMATS, required=True, help="geojson, gpx or csv")
+    p.add_argument("--out", metavar="FILE", help="write here (all at once); default: stdout")
+
+
+def run(args, ui) -> int:
+    pv = load(args.plan)
+    text = export(pv, args.format)
+    if args.out:
+        atomic_write(args.out, text)
+        ui.out.print(f"wrote {args.out}")
+    else:
+        sys.stdout.write(text)
+    return 0
