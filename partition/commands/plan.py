@@ -1,0 +1,105 @@
+"""``crewcut plan NETWORK``: territories, routes and balanced shifts for a fleet of crews."""
+from __future__ import annotations
+
+import argparse
+import time
+from pathlib import Path
+
+from rich.table import Table
+
+NAME = "plan"
+HELP = "split a street network into balanced territories, one per crew, and route every crew"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("network", metavar="NETWORK",
+                        help="street network: .geojson/.json, .osm, .osm.pbf/.pbf or .csv")
+    parser.add_argument("--config", metavar="FILE",
+                        help="work profile with [[crews]] (TOML); default: the shipped curb-sweeping profile")
+    parser.add_argument("--crews", metavar="K", type=int,
+                        help="plan for K identical crews sharing the depot given by --depot")
+    parser.add_argument("--depot", metavar="LON,LAT", help="the shared depot of --crews K")
+    parser.add_argument("--crew", metavar="ID", action="append", default=None,
+                        help="plan only for this crew of the config (repeat for several)")
+    parser.add_argument("--seed", metavar="N", type=int, default=0,
+                        help="seed for every random choice; same input and seed, same plan (default 0)")
+    parser.add_argument("--workers", metavar="N", type=int, default=None,
+                        help="processes routing territories in parallel (default: all cores)")
+    parser.add_argument("--time-limit", metavar="SECONDS", type=float, default=30.0,
+                        help="time the balancer may take (default 30); a plan cut short by it may "
+                             "differ between machines")
+    parser.add_argument("--out", metavar="DIR", default="crewcut-out",
+                        help="folder for plan.json (default ./crewcut-out)")
+
+
+def run(args, ui) -> int:
+    from solve.profile import load_profile
+    from solve.readers import read_network
+
+    from ..cli import parse_lonlat
+    from ..crews import resolve_crews
+    from ..planfile import write_plan
+    from ..planner import plan_fleet
+
+    profile = load_profile(args.config)
+    depot = parse_lonlat(args.depot) if args.depot else None
+    out_dir = Path(args.out)
+    if out_dir.exists() and not out_dir.is_dir():
+        from solve.errors import InputError
+
+        raise InputError(f"--out '{out_dir}' is a file, not a folder", "give a folder for plan.json")
+    net = read_network(args.network, profile)
+    crews = resolve_crews(net, profile, k=args.crews, depot_lonlat=depot, only=args.crew)
+    t0 = time.perf_counter()
+    with ui.progress() as bar:
+        tasks: dict[str, int] = {}
+
+        def progress(desc: str, done: float, total: float) -> None:
+            stage = desc.split(":")[0]
+            if stage not in tasks:
+                tasks[stage] = bar.add_task(desc, total=total)
+            bar.update(tasks[stage], completed=done, total=total, description=desc)
+
+        plan = plan_fleet(net, profile, crews, seed=args.seed, workers=args.workers,
+                          time_limit_s=args.time_limit, progress=progress, source=str(args.network))
+    seconds = time.perf_counter() - t0
+    path = write_plan(plan, out_dir / "plan.json")
+    _print(ui, plan, path, seconds)
+    return 0
+
+
+def _print(ui, plan: dict, path: Path, seconds: float) -> None:
+    s = plan["summary"]
+    try:
+        from ..workload import workload_table
+
+        ui.out.print(workload_table(plan))
+    except ImportError:
+        ui.out.print(_fallback_table(plan))
+    b = s.get("balance", {})
+    ui.out.print(f"longest shift {s['longest_min'] / 60:.2f} h, mean {s['mean_min'] / 60:.2f} h, "
+                 f"longest / mean {s['longest_over_mean']:.3f}")
+    ui.out.print(f"lower bound on the longest shift {s['lower_bound_min'] / 60:.2f} h, "
+                 f"gap {100 * s['gap']:.1f} % (a heuristic plan: the gap is an upper bound on how far "
+                 f"it is from the best possible)")
+    if b:
+        ui.out.print(f"balancing: longest {b['before_longest_min'] / 60:.2f} h -> {b['after_longest_min'] / 60:.2f} h, "
+                     f"{b['moves_kept']} moves and {b['swaps_kept']} swaps kept of {b['trials']} tried, "
+                     f"stopped on {b['stop']}")
+    for o in s["over_limit"]:
+        ui.out.print(f"[bold red]over limit:[/] crew {o['crew']} by {o['over_min']:.0f} min "
+                     f"({o['shift_min'] / 60:.2f} h against {o['limit_min'] / 60:.2f} h)")
+    if s["over_limit"]:
+        ui.out.print(f"an estimated {s['crews_needed_estimate']} crews would fit their shift limits "
+                     f"(total shift minutes over the limits; not a plan)")
+    ui.out.print(f"plan written to {path} ({seconds:.1f} s)")
+
+
+def _fallback_table(plan: dict) -> Table:
+    t = Table(title="Workload per crew")
+    for col in ("crew", "depot", "segments (count)", "shift (h)", "shift limit used (%)"):
+        t.add_column(col, justify="left" if col in ("crew", "depot") else "right")
+    for c in plan["crews"]:
+        t.add_row(c["id"], str(c["depot_node"]), str(len(c["territory"])), f"{c['shift_min'] / 60:.2f}",
+                  f"{100 * c['shift_min'] / c['shift_limit_min']:.1f}")
+    return t

@@ -1,0 +1,174 @@
+"""Small generated street networks and independent checks for the fleet-planning tests.
+
+Networks are invented grids near Tallowmere (lon -30.5, lat 45.2) with jittered
+corners, some streets missing, one-way rows in alternating directions (so every
+street stays reachable both ways) and a mix of service kinds. They are built
+with the project's topology repair (:func:`solve.repair.build_network`).
+
+The checks here do not use the planner: ``check_plan_independently`` walks the
+plan with networkx and plain counting; ``nx_lower_bound`` recomputes the min-max
+lower bound with networkx shortest paths (see its docstring for the sources).
+"""
+from __future__ import annotations
+
+import math
+
+import networkx as nx
+import numpy as np
+
+from solve.network import RawLine
+from solve.profile import Profile
+from solve.repair import build_network
+
+ORIGIN = (-30.5, 45.2)
+STREET_WORDS = ("Tallow", "Mere", "Wick", "Candle", "Lantern", "Ember", "Flax", "Reed")
+
+
+def grid_lines(cols: int, rows: int, seed: int, *, oneway_rows: bool = True, drop: float = 0.1,
+               none_share: float = 0.1, one_pass_share: float = 0.2, closed: tuple = ()) -> list[RawLine]:
+    rng = np.random.default_rng(seed)
+    sp = 0.0012
+    pts = {}
+    for r in range(rows):
+        for c in range(cols):
+            j = rng.uniform(-0.25, 0.25, 2) * sp
+            pts[r, c] = (ORIGIN[0] + (c - cols / 2) * sp + j[0], ORIGIN[1] + (r - rows / 2) * sp * 0.7 + j[1])
+    lines = []
+
+    def add(a, b, name, oneway=0, can_drop=True):
+        if can_drop and rng.random() < drop:
+            return
+        kind = rng.random()
+        service = "none" if kind < none_share else ("one_pass" if kind < none_share + one_pass_share else "both_sides")
+        sid = f"st-{len(lines)}"
+        coords = np.array([pts[a], pts[b]])
+        if oneway < 0:
+            coords = coords[::-1]
+        lines.append(RawLine(sid, coords, name=name, road_class="residential", oneway=int(oneway != 0),
+                             service=service, closed=sid in closed))
+
+    for r in range(rows):
+        # interior rows alternate one-way directions; outer rows and every column stay two-way
+        ow = 0
+        if oneway_rows and 0 < r < rows - 1:
+            ow = 1 if r % 2 else -1
+        for c in range(cols - 1):
+            add((r, c), (r, c + 1), f"{STREET_WORDS[r % len(STREET_WORDS)]} Row", ow, can_drop=ow == 0 and r not in (0, rows - 1))
+    for c in range(cols):
+        for r in range(rows - 1):
+            add((r, c), (r + 1, c), f"{STREET_WORDS[c % len(STREET_WORDS)]} Rise", 0, can_drop=c not in (0, cols - 1))
+    return lines
+
+
+def grid_network(cols: int, rows: int, seed: int, profile: Profile | None = None, **kw):
+    profile = profile or Profile()
+    return build_network(grid_lines(cols, rows, seed, **kw), profile)
+
+
+# ----------------------------------------------------------------------------- independent checks
+def passes_needed(seg: dict, ignore_oneway: bool) -> tuple[int, int, int]:
+    """(forward, backward, either) passes of a plan segment from its service kind.
+
+    From the trade (design.md section 2): one pass per curb with traffic, both
+    curbs of a one-way street in its direction; one-pass streets either way.
+    Written out again here so that the check does not reuse solve.costs.
+    """
+    if seg["closed"]:
+        return 0, 0, 0
+    svc, ow = seg["service"], seg["oneway"] and not ignore_oneway
+    if svc == "none":
+        return 0, 0, 0
+    if svc == "one_pass":
+        return (1, 0, 0) if ow else (0, 0, 1)
+    if svc == "both_sides":
+        if ignore_oneway:
+            return 0, 0, 2
+        return (2, 0, 0) if ow else (1, 1, 0)
+    if svc == "each_direction":
+        return (1, 0, 0) if ow else (1, 1, 0)
+    raise ValueError(svc)
+
+
+def check_plan_independently(plan: dict) -> None:
+    """Assert the plan's invariants from the plan file alone (raises AssertionError)."""
+    segs = plan["network"]["segments"]
+    ignore = plan["settings"]["profile"]["ignore_oneway"]
+    need = {s["id"]: passes_needed(s, ignore) for s in segs}
+    served: dict[int, list[bool]] = {}
+    owner: dict[int, str] = {}
+    for crew in plan["crews"]:
+        for s in crew["territory"]:
+            assert s not in owner, f"segment {s} in two territories"
+            owner[s] = crew["id"]
+        for route in crew["routes"]:
+            trs = route["traversals"]
+            # a closed walk from the depot (networkx is not needed for this, plain chaining is)
+            assert trs[0]["from"] == crew["depot_node"] and trs[-1]["to"] == crew["depot_node"]
+            for a, b in zip(trs, trs[1:]):
+                assert a["to"] == b["from"]
+            total = 0.0
+            for t in trs:
+                seg = segs[t["segment"]]
+                assert not seg["closed"]
+                assert {t["from"], t["to"]} == {seg["from"], seg["to"]}
+                fwd = (t["from"], t["to"]) == (seg["from"], seg["to"])
+                if seg["oneway"] and not ignore:
+                    assert fwd, f"one-way segment {seg['id']} driven backwards"
+                if t["mode"] == "service":
+                    assert owner.get(t["segment"]) == crew["id"]
+                    served.setdefault(t["segment"], []).append(fwd)
+                total += t["minutes"] + t["turn_minutes"]
+            assert math.isclose(total, route["totals"]["total_min"], rel_tol=1e-6, abs_tol=1e-3)
+    for sid, (f, b, e) in need.items():
+        got = served.get(sid, [])
+        nf = sum(got)
+        nb = len(got) - nf
+        assert nf >= f and nb >= b and nf + nb == f + b + e, (sid, (f, b, e), (nf, nb))
+        assert (sid in owner) == (f + b + e > 0), sid
+
+
+def nx_lower_bound(plan: dict) -> float:
+    """A lower bound on the longest shift of any plan, recomputed with networkx.
+
+    max(total service minutes / k, the longest "depot -> serve one pass -> depot"
+    round trip from the best depot) -- the min-max bound of Ahr and Reinelt (2006),
+    "Lower bounds for the min-max k-Chinese postman problem" (from memory), with the
+    total single-crew cost weakened to its service part, which any plan must
+    spend. Shortest paths: networkx's Dijkstra over legal directions at deadhead
+    minutes.
+    """
+    segs = plan["network"]["segments"]
+    ignore = plan["settings"]["profile"]["ignore_oneway"]
+    g = nx.DiGraph()
+    for s in segs:
+        if s["closed"]:
+            continue
+        for a, b, ok in ((s["from"], s["to"], True), (s["to"], s["from"], ignore or not s["oneway"])):
+            if ok and (not g.has_edge(a, b) or g[a][b]["w"] > s["deadhead_min"]):
+                g.add_edge(a, b, w=s["deadhead_min"])
+    depots = sorted({c["depot_node"] for c in plan["crews"]})
+    out = {d: nx.single_source_dijkstra_path_length(g, d, weight="w") for d in depots}
+    back = {d: nx.single_source_dijkstra_path_length(g.reverse(copy=False), d, weight="w") for d in depots}
+    service = 0.0
+    trip = 0.0
+    for s in segs:
+        f, b, e = passes_needed(s, ignore)
+        if f + b + e == 0:
+            continue
+        service += (f + b + e) * s["service_min"]
+        u, v = s["from"], s["to"]
+        inf = math.inf
+        best = inf
+        for d in depots:
+            fw = out[d].get(u, inf) + s["service_min"] + back[d].get(v, inf)
+            bw = out[d].get(v, inf) + s["service_min"] + back[d].get(u, inf)
+            worst = 0.0
+            if f:
+                worst = max(worst, fw)
+            if b:
+                worst = max(worst, bw)
+            if e:
+                worst = max(worst, min(fw, bw))
+            best = min(best, worst)
+        trip = max(trip, best)
+    return max(service / len(plan["crews"]), trip)

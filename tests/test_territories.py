@@ -1,0 +1,160 @@
+"""Crews, seeds and territory growth: coverage, connectivity, and bad input.
+
+Connectivity is checked with networkx (``nx.is_connected`` on the line graph of
+each territory's streets, plus the drive-through links), not with the planner's
+own helper.
+"""
+from __future__ import annotations
+
+import networkx as nx
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from fleetnets import grid_lines, grid_network
+from partition.crews import resolve_crews
+from partition.planner import plan_fleet
+from partition.seeding import seed_territories
+from partition.streets import build_street_graph, depot_travel, round_trips
+from partition.territories import grow_territories, territories_of
+from solve.errors import InputError
+from solve.network import RawLine
+from solve.profile import Crew, Profile
+from solve.repair import build_network
+
+
+def _grow(net, profile, crews, seed=0):
+    sg = build_street_graph(net, profile)
+    depots = [c.depot for c in crews]
+    uniq = sorted(set(depots))
+    out, back = depot_travel(net, profile, uniq)
+    rt = round_trips(net, sg, out, back)[[uniq.index(d) for d in depots]]
+    el = np.isfinite(rt)
+    xy = np.stack([net.node_x[depots], net.node_y[depots]], axis=1)
+    centres, seeds = seed_territories(sg, xy, el, seed=seed)
+    owner = grow_territories(net, sg, centres, seeds, el, np.zeros(len(crews)))
+    return sg, owner
+
+
+def _nx_connected(net, sg, segs) -> bool:
+    """Segments sharing a node, or joined by a drive-through link, form one piece (networkx)."""
+    g = nx.Graph()
+    g.add_nodes_from(segs)
+    by_node: dict[int, list[int]] = {}
+    for s in segs:
+        for n in (int(net.seg_u[s]), int(net.seg_v[s])):
+            by_node.setdefault(n, []).append(s)
+    for group in by_node.values():
+        nx.add_path(g, group)
+    members = set(segs)
+    for s in segs:  # links between groups that only drive-through streets join
+        for t in sg.neighbours(s).tolist():
+            if t in members:
+                g.add_edge(s, t)
+    return len(segs) > 0 and nx.is_connected(g)
+
+
+@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(seed=st.integers(0, 10_000), k=st.integers(1, 6), cols=st.integers(4, 11), rows=st.integers(3, 8))
+def test_every_required_segment_in_exactly_one_connected_territory(seed, k, cols, rows):
+    profile = Profile()
+    net = grid_network(cols, rows, seed)
+    n_req = int((build_street_graph(net, profile).required).sum())
+    k = min(k, n_req)
+    crews = resolve_crews(net, profile, k=k, depot_lonlat=(-30.5, 45.2))
+    sg, owner = _grow(net, profile, crews, seed)
+    # exactly one crew per required segment, none for drive-through segments
+    assert np.all((owner >= 0) == sg.required)
+    for segs in territories_of(owner, k):
+        assert segs.size > 0
+        assert _nx_connected(net, sg, segs.tolist())
+    # the drive-through links only ever join required segments
+    for s in np.flatnonzero(sg.required):
+        assert sg.required[sg.neighbours(s)].all()
+
+
+def test_same_seed_same_territories():
+    profile = Profile()
+    net = grid_network(10, 7, 5)
+    crews = resolve_crews(net, profile, k=4, depot_lonlat=(-30.5, 45.2))
+    a = _grow(net, profile, crews, seed=3)[1]
+    b = _grow(net, profile, crews, seed=3)[1]
+    assert np.array_equal(a, b)
+
+
+def test_territories_span_drive_through_streets():
+    # Two blocks of required streets joined only by a drive-through street: the link
+    # lets one territory hold both (Mehlhorn's spanning tree joins them).
+    lines = grid_lines(5, 4, 1, drop=0.0, none_share=0.0, one_pass_share=0.0, oneway_rows=False)
+    far = [RawLine(f"far-{i}", ln.coords + np.array([0.02, 0.0]), name=ln.name, road_class="residential",
+                   service="both_sides") for i, ln in enumerate(lines)]
+    link = RawLine("link", np.array([lines[0].coords[0], far[0].coords[0]]), road_class="residential",
+                   service="none")
+    profile = Profile()
+    net = build_network(lines + far + [link], profile)
+    crews = resolve_crews(net, profile, k=1, depot_lonlat=(-30.5, 45.2))
+    sg, owner = _grow(net, profile, crews)
+    assert np.all(owner[sg.required] == 0)
+    assert _nx_connected(net, sg, np.flatnonzero(sg.required).tolist())
+
+
+def test_several_depots_anchor_their_territories():
+    profile = Profile(crews=(Crew("west", 480.0, depot_lonlat=(-30.506, 45.2)),
+                             Crew("east", 480.0, depot_lonlat=(-30.494, 45.2))))
+    net = grid_network(12, 5, 2)
+    crews = resolve_crews(net, profile)
+    assert crews[0].depot != crews[1].depot
+    sg, owner = _grow(net, profile, crews)
+    xw = sg.mid_x[owner == 0].mean()
+    xe = sg.mid_x[owner == 1].mean()
+    assert xw < xe  # the west crew's territory lies west of the east crew's
+
+
+# ----------------------------------------------------------------------------- bad input
+def test_island_behind_closed_bridge_names_the_segments():
+    lines = grid_lines(4, 3, 2, drop=0.0, none_share=0.0, oneway_rows=False)
+    island = [RawLine(f"isle-{i}", ln.coords + np.array([0.01, 0.0]), road_class="residential",
+                      service="both_sides") for i, ln in enumerate(lines)]
+    bridge = RawLine("bridge", np.array([lines[-1].coords[1], island[0].coords[0]]), road_class="residential",
+                     service="none", closed=True)
+    profile = Profile()
+    net = build_network(lines + island + [bridge], profile)
+    crews = resolve_crews(net, profile, k=2, depot_lonlat=(-30.5, 45.2))
+    with pytest.raises(InputError) as exc:
+        plan_fleet(net, profile, crews, workers=1)
+    assert "isle-" in exc.value.message and "cannot be reached" in exc.value.message
+
+
+@pytest.mark.parametrize("k", [0, -1])
+def test_zero_crews(k):
+    net = grid_network(4, 3, 0)
+    with pytest.raises(InputError, match="at least one crew"):
+        resolve_crews(net, Profile(), k=k, depot_lonlat=(-30.5, 45.2))
+
+
+def test_more_crews_than_required_segments():
+    net = grid_network(3, 2, 0, drop=0.0)
+    with pytest.raises(InputError, match="segments need service"):
+        resolve_crews(net, Profile(), k=500, depot_lonlat=(-30.5, 45.2))
+
+
+def test_unknown_crew_id():
+    profile = Profile(crews=(Crew("north", 480.0, depot_lonlat=(-30.5, 45.2)),))
+    net = grid_network(4, 3, 0)
+    with pytest.raises(InputError, match="unknown crew id 'south'"):
+        resolve_crews(net, profile, only=["south"])
+
+
+def test_depot_far_from_streets():
+    net = grid_network(4, 3, 0)
+    with pytest.raises(InputError, match="from the nearest usable street"):
+        resolve_crews(net, Profile(), k=2, depot_lonlat=(-30.0, 45.2))
+
+
+def test_shift_limit_no_route_can_meet():
+    net = grid_network(6, 4, 0)
+    profile = Profile(shift_limit_min=0.5)
+    crews = resolve_crews(net, profile, k=2, depot_lonlat=(-30.5, 45.2))
+    with pytest.raises(InputError, match="no route can meet the shift limit"):
+        plan_fleet(net, profile, crews, workers=1)
