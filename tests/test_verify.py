@@ -1,0 +1,153 @@
+"""The plan verifier: accepts valid plans, names the first violation of broken ones.
+
+The valid plans come from ``tests/planfactory.py``, which builds routes with
+networkx's ``eulerize`` and ``eulerian_circuit`` (not with the project's route
+engine or planner), so the verifier is tested against an outside construction.
+Each broken plan breaks exactly one invariant; the test checks the verifier
+names that one.
+"""
+from __future__ import annotations
+
+import copy
+
+import pytest
+
+from fleetnets import check_plan_independently
+from partition.verify import check_plan
+from planfactory import grid_network, make_plan
+from solve.profile import Profile
+
+
+def _profile():
+    # the profile planfactory.make_plan uses
+    return Profile(service_speed_kmh={"default": 6.0}, deadhead_speed_kmh={"default": 25.0})
+
+
+def _retotal(plan: dict) -> None:
+    """Recompute route totals and shifts from the traversals (so only the intended break remains)."""
+    for crew in plan["crews"]:
+        shift = 0.0
+        for r in crew["routes"]:
+            t = r["totals"]
+            trs = r["traversals"]
+            t["service_km"] = sum(x["metres"] for x in trs if x["mode"] == "service") / 1000
+            t["deadhead_km"] = sum(x["metres"] for x in trs if x["mode"] == "deadhead") / 1000
+            t["service_min"] = sum(x["minutes"] for x in trs if x["mode"] == "service")
+            t["deadhead_min"] = sum(x["minutes"] for x in trs if x["mode"] == "deadhead")
+            t["turn_min"] = sum(x["turn_minutes"] for x in trs)
+            t["total_min"] = t["service_min"] + t["deadhead_min"] + t["turn_min"]
+            shift += t["total_min"]
+        crew["shift_min"] = shift
+
+
+@pytest.fixture(scope="module")
+def valid():
+    return make_plan(k=3), grid_network(), _profile()
+
+
+def test_valid_plan_passes(valid):
+    plan, net, profile = valid
+    check_plan_independently(plan)  # the outside construction is valid by the test's own checker
+    assert check_plan(plan, net, profile) == []
+
+
+def _first(plan, net, profile) -> str:
+    found = check_plan(plan, net, profile)
+    assert found, "the verifier accepted a broken plan"
+    return str(found[0])
+
+
+def test_other_network(valid):
+    plan, _, profile = valid
+    assert "different network" in _first(plan, grid_network(cols=5), profile)
+
+
+def test_route_not_closed(valid):
+    plan, net, profile = valid
+    p = copy.deepcopy(plan)
+    trs = p["crews"][0]["routes"][0]["traversals"]
+    while trs and trs[-1]["from"] == p["crews"][0]["depot_node"]:
+        trs.pop()
+    trs.pop()
+    msg = _first(p, net, profile)
+    assert "not at the depot" in msg
+
+
+def test_steps_not_chained(valid):
+    plan, net, profile = valid
+    p = copy.deepcopy(plan)
+    trs = p["crews"][1]["routes"][0]["traversals"]
+    i = next(i for i in range(1, len(trs) - 1) if trs[i]["from"] != trs[i + 1]["from"])
+    trs[i], trs[i + 1] = trs[i + 1], trs[i]
+    assert "previous step ended" in _first(p, net, profile)
+
+
+def test_served_by_the_wrong_crew(valid):
+    plan, net, profile = valid
+    p = copy.deepcopy(plan)
+    a, b = p["crews"][0], p["crews"][1]
+    s = a["territory"].pop()
+    b["territory"].append(s)
+    assert f"serves segment {s}, which belongs to" in _first(p, net, profile)
+
+
+def test_segment_in_two_territories(valid):
+    plan, net, profile = valid
+    p = copy.deepcopy(plan)
+    p["crews"][1]["territory"].append(p["crews"][0]["territory"][0])
+    assert "in the territories of both" in _first(p, net, profile)
+
+
+def test_pass_not_served(valid):
+    plan, net, profile = valid
+    p = copy.deepcopy(plan)
+    segs = p["network"]["segments"]
+    t = next(t for t in p["crews"][2]["routes"][0]["traversals"] if t["mode"] == "service")
+    t["mode"] = "deadhead"
+    t["minutes"] = segs[t["segment"]]["deadhead_min"]
+    _retotal(p)
+    assert f"segment {t['segment']}" in _first(p, net, profile)
+    assert "exactly once" in _first(p, net, profile)
+
+
+def test_pass_served_twice(valid):
+    plan, net, profile = valid
+    p = copy.deepcopy(plan)
+    segs = p["network"]["segments"]
+    crew = p["crews"][0]
+    terr = set(crew["territory"])
+    t = next(t for t in crew["routes"][0]["traversals"] if t["mode"] == "deadhead" and t["segment"] in terr)
+    t["mode"] = "service"
+    t["minutes"] = segs[t["segment"]]["service_min"]
+    _retotal(p)
+    assert "exactly once" in _first(p, net, profile)
+
+
+def test_totals_do_not_add_up(valid):
+    plan, net, profile = valid
+    p = copy.deepcopy(plan)
+    p["crews"][0]["routes"][0]["totals"]["total_min"] += 1.0
+    assert "totals.total_min" in _first(p, net, profile)
+
+
+def test_shift_does_not_add_up(valid):
+    plan, net, profile = valid
+    p = copy.deepcopy(plan)
+    p["crews"][2]["shift_min"] += 5.0
+    assert "shift_min" in _first(p, net, profile)
+
+
+def test_traversal_along_a_segment_it_is_not_on(valid):
+    plan, net, profile = valid
+    p = copy.deepcopy(plan)
+    t = p["crews"][0]["routes"][0]["traversals"][3]
+    t["segment"] = next(s["id"] for s in p["network"]["segments"]
+                        if t["from"] not in (s["from"], s["to"]))
+    assert "whose ends are" in _first(p, net, profile)
+
+
+def test_wrong_minutes(valid):
+    plan, net, profile = valid
+    p = copy.deepcopy(plan)
+    p["crews"][0]["routes"][0]["traversals"][2]["minutes"] += 0.5
+    assert "minutes" in _first(p, net, profile)
