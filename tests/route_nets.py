@@ -13,10 +13,11 @@ ORIGIN = (-30.5, 45.2)
 DEG_PER_M = 1.0 / 111_000.0  # rough, only to place test nodes on a grid
 
 
-def make_network(lonlat, segs, *, closed=(), geometry=True) -> Network:
+def make_network(lonlat, segs, *, closed=(), geometry=True, lengths=None) -> Network:
     """A :class:`Network` from node positions and ``(u, v, oneway, service)`` rows.
 
-    Segments are straight lines; one-way segments are legal ``u -> v``.
+    Segments are straight lines; one-way segments are legal ``u -> v``. ``lengths``
+    (metres) replaces the geodesic lengths, e.g. for unit-weight textbook graphs.
     """
     lonlat = np.asarray(lonlat, float)
     n, m = lonlat.shape[0], len(segs)
@@ -31,7 +32,7 @@ def make_network(lonlat, segs, *, closed=(), geometry=True) -> Network:
         node_lat=lonlat[:, 1] if geometry else np.full(n, np.nan),
         node_x=x, node_y=y, node_label=[str(i) for i in range(n)],
         seg_source=[f"s{i}" for i in range(m)], seg_u=u, seg_v=v,
-        seg_length=geodesic_lengths(coords),
+        seg_length=geodesic_lengths(coords) if lengths is None else np.asarray(lengths, float),
         seg_oneway=np.array([bool(s[2]) for s in segs], bool),
         seg_service=np.array([s[3] if len(s) > 3 else SERVICE_BOTH_SIDES for s in segs], np.int8),
         seg_class=["residential"] * m, seg_name=[f"Test Lane {i}" for i in range(m)],

@@ -1,0 +1,208 @@
+"""One crew's route: serve every required pass of some segments from a depot and return.
+
+Problem
+-------
+Given a street network, a work profile, a depot node and the segments a crew
+must serve (all of them by default), find a closed route from the depot that
+serves every required pass exactly once, driving only existing streets in legal
+directions, with as few minutes as possible: a Chinese postman problem (rural
+when only some streets are required, mixed when one-way streets and two-way
+streets meet), with turn penalties on top.
+
+Method
+------
+1. Tasks (one per required pass) and deadhead arcs (every legal driving
+   direction of every usable segment): :mod:`solve.tasks`.
+2. The cheapest set of deadhead repeats that makes the tasks plus the depot a
+   balanced, connected multigraph: :func:`solve.eulerize.eulerize` (exact for the
+   undirected and directed cases, a stated heuristic with a lower bound for the
+   mixed case; it also connects a depot that lies away from the tasks).
+3. An Euler circuit from the depot, turn-aware by default: :mod:`solve.circuit`.
+
+The route's ``lower_bound_min`` bounds service plus deadhead minutes (turns
+excluded); ``exact`` says the deadhead part is proven least, never the turns.
+"""
+from __future__ import annotations
+
+import numbers
+from dataclasses import dataclass
+
+import numpy as np
+
+from .circuit import euler_circuit
+from .errors import InputError
+from .network import Network
+from .profile import Profile
+from .result import TURNS, Augmentation, Route, RouteTotals, Traversal
+from .turns import TurnModel
+
+
+def _check_depot(net: Network, depot) -> int:
+    if isinstance(depot, bool) or not isinstance(depot, numbers.Integral):
+        raise InputError(f"depot must be a node id (an integer), got {depot!r}")
+    depot = int(depot)
+    if not 0 <= depot < net.n_nodes:
+        raise InputError(f"depot node {depot} does not exist (the network has nodes 0 to {net.n_nodes - 1})",
+                         "give an existing node id, or place the depot by lon/lat")
+    open_ = ~net.seg_closed
+    if not ((net.seg_u[open_] == depot).any() or (net.seg_v[open_] == depot).any()):
+        raise InputError(f"depot node {depot} ('{net.node_label[depot]}') touches no usable street",
+                         "place the depot on an open street")
+    return depot
+
+
+def _check_segments(net: Network, segments) -> np.ndarray | None:
+    if segments is None:
+        return None
+    try:
+        seg = np.unique(np.asarray(list(segments)))
+    except TypeError:
+        raise InputError(f"segments must be a list of segment ids, got {segments!r}") from None
+    if seg.size == 0:
+        return seg.astype(np.int64)
+    if seg.dtype == bool or not np.issubdtype(seg.dtype, np.integer):
+        raise InputError(f"segments must be integer segment ids, got values of type {seg.dtype}")
+    bad = seg[(seg < 0) | (seg >= net.n_segments)]
+    if bad.size:
+        shown = ", ".join(str(int(s)) for s in bad[:10])
+        raise InputError(f"segment ids do not exist: {shown}{' ...' if bad.size > 10 else ''} "
+                         f"(the network has segments 0 to {net.n_segments - 1})")
+    closed = seg[net.seg_closed[seg]]
+    if closed.size:
+        shown = ", ".join(f"{int(s)} ('{net.seg_source[int(s)]}')" for s in closed[:10])
+        raise InputError(f"closed segments cannot be served: {shown}{' ...' if closed.size > 10 else ''}",
+                         "leave closed streets out of the segments to serve, or reopen them")
+    return seg.astype(np.int64)
+
+
+def _check_params(time_limit_s, seed) -> None:
+    if isinstance(time_limit_s, bool) or not isinstance(time_limit_s, numbers.Real) \
+            or not np.isfinite(time_limit_s) or time_limit_s <= 0:
+        raise InputError(f"time_limit_s must be a positive number of seconds, got {time_limit_s!r}")
+    if isinstance(seed, bool) or not isinstance(seed, numbers.Integral) or seed < 0:
+        raise InputError(f"seed must be a whole number 0 or more, got {seed!r}")
+
+
+def _lower_bound(net, profile, depot, segments, service_min: float, aug) -> float:
+    lb = service_min + float(aug.lower_bound)
+    try:
+        from .bounds import fleet_lower_bound
+    except ImportError:  # bounds not available: the augmentation's bound stands
+        return lb
+    seg_list = None if segments is None else segments.tolist()
+    return max(lb, float(fleet_lower_bound(net, profile, [depot], 1, seg_list)))
+
+
+@dataclass(frozen=True)
+class AugmentedTraversals:
+    """The tasks as driven plus the deadhead traversals an Eulerization added.
+
+    Arrays have one entry per traversal: the tasks first (``n_tasks`` of them),
+    then the added deadhead (``n_added``). ``forward``: driven ``seg_u -> seg_v``.
+    """
+
+    tail: np.ndarray
+    head: np.ndarray
+    seg: np.ndarray
+    forward: np.ndarray
+    service: np.ndarray
+    minutes: np.ndarray
+    metres: np.ndarray
+    aug: Augmentation
+    n_tasks: int
+    n_added: int
+
+
+def augmented_traversals(net: Network, profile: Profile, depot: int, segments=None, *,
+                         time_limit_s: float = 10.0, seed: int = 0) -> AugmentedTraversals | None:
+    """Tasks and Eulerization as traversal arrays (``None`` when nothing needs service).
+
+    Parameters are those of :func:`plan_route`, assumed already checked.
+    """
+    from .eulerize import eulerize
+    from .tasks import build_deadhead, build_tasks
+
+    tasks = build_tasks(net, profile, None if segments is None else [int(s) for s in segments])
+    arcs = build_deadhead(net, profile)
+    n_tasks = int(np.asarray(tasks.seg).size)
+    if n_tasks == 0:
+        return None
+    aug = eulerize(tasks, arcs, depot, net.n_nodes, time_limit_s=float(time_limit_s), seed=int(seed))
+
+    # the tasks as driven, then the added deadhead traversals
+    orient = np.asarray(aug.orientation, bool)
+    t_tail = np.where(orient, tasks.tail, tasks.head).astype(np.int64)
+    t_head = np.where(orient, tasks.head, tasks.tail).astype(np.int64)
+    extra = np.asarray(aug.arcs, np.int64)
+    tail = np.concatenate([t_tail, np.asarray(arcs.tail, np.int64)[extra]])
+    head = np.concatenate([t_head, np.asarray(arcs.head, np.int64)[extra]])
+    seg = np.concatenate([np.asarray(tasks.seg, np.int64), np.asarray(arcs.seg, np.int64)[extra]])
+    service = np.concatenate([np.ones(n_tasks, bool), np.zeros(extra.size, bool)])
+    minutes = np.concatenate([np.asarray(tasks.minutes, float), np.asarray(arcs.minutes, float)[extra]])
+    metres = np.concatenate([np.asarray(tasks.metres, float), np.asarray(arcs.metres, float)[extra]])
+    # u -> v, read from the network itself (a loop street counts as forward)
+    forward = np.concatenate([(t_tail == net.seg_u[tasks.seg]) & (t_head == net.seg_v[tasks.seg]),
+                              np.asarray(arcs.forward, bool)[extra]])
+
+    return AugmentedTraversals(tail, head, seg, forward, service, minutes, metres, aug, n_tasks, int(extra.size))
+
+
+def plan_route(net: Network, profile: Profile, depot: int, segments=None, *, turn_aware: bool = True,
+               time_limit_s: float = 10.0, seed: int = 0) -> Route:
+    """A closed route from ``depot`` serving every required pass of ``segments``.
+
+    Parameters
+    ----------
+    net, profile:
+        The street network and the work profile (speeds, passes, turn penalties).
+    depot:
+        Node id where the route starts and ends. It need not touch the segments to
+        serve: the route drives out to them and back.
+    segments:
+        Segment ids to serve (their required passes); ``None`` serves all.
+        Other segments may still be driven through.
+    turn_aware:
+        Choose the circuit that avoids U-turns and turns across traffic (default)
+        rather than plain Hierholzer.
+    time_limit_s, seed:
+        Passed to the Eulerization (used by its mixed-case search).
+
+    Returns
+    -------
+    :class:`solve.result.Route`; ``stats`` holds the U-turn and across-traffic
+    counts of the chosen circuit and of plain Hierholzer on the same augmentation.
+
+    Raises :class:`InputError` for a depot or segment that does not exist, a
+    closed segment to serve, or streets the crew cannot reach and leave.
+    """
+    depot = _check_depot(net, depot)
+    seg_sel = _check_segments(net, segments)
+    _check_params(time_limit_s, seed)
+
+    trav = augmented_traversals(net, profile, depot, seg_sel, time_limit_s=time_limit_s, seed=seed)
+    if trav is None:
+        return Route(depot=depot, traversals=(), totals=RouteTotals.of(()), method="nothing to serve",
+                     exact=True, lower_bound_min=0.0, stats={"tasks": 0})
+    tail, head, seg, forward = trav.tail, trav.head, trav.seg, trav.forward
+    service, minutes, metres, aug = trav.service, trav.minutes, trav.metres, trav.aug
+    n_tasks, extra = trav.n_tasks, trav.n_added
+
+    circuit = euler_circuit(tail, head, seg, forward, depot, TurnModel.from_network(net, profile),
+                            turn_aware=turn_aware)
+    o = circuit.order
+    turn_min = circuit.turn_s / 60.0
+    traversals = tuple(
+        Traversal(segment=s, from_node=a, to_node=b, service=sv, metres=me, minutes=mi,
+                  turn=TURNS[k], turn_minutes=tm)
+        for s, a, b, sv, me, mi, k, tm in zip(
+            seg[o].tolist(), tail[o].tolist(), head[o].tolist(), service[o].tolist(), metres[o].tolist(),
+            minutes[o].tolist(), circuit.turn.tolist(), turn_min.tolist()))
+    totals = RouteTotals.of(traversals)
+    service_min = float(minutes[service].sum())
+    stats = dict(circuit.stats)
+    stats.update(tasks=n_tasks, deadhead_added=extra, augmentation_min=float(aug.cost),
+                 augmentation_lower_bound_min=float(aug.lower_bound), circuit=circuit.method)
+    return Route(depot=depot, traversals=traversals, totals=totals,
+                 method=f"{aug.method}; {'turn-aware circuit' if turn_aware else 'Hierholzer circuit'}",
+                 exact=bool(aug.exact),
+                 lower_bound_min=_lower_bound(net, profile, depot, seg_sel, service_min, aug), stats=stats)
