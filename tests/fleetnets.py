@@ -172,3 +172,36 @@ def nx_lower_bound(plan: dict) -> float:
             best = min(best, worst)
         trip = max(trip, best)
     return max(service / len(plan["crews"]), trip)
+
+
+def write_geojson(path, lines: list[RawLine]) -> None:
+    """Write RawLines as a GeoJSON FeatureCollection the project's reader takes."""
+    import json
+
+    feats = [{"type": "Feature", "id": ln.source_id,
+              "properties": {"id": ln.source_id, "name": ln.name, "class": ln.road_class, "oneway": bool(ln.oneway),
+                             "service": ln.service, "closed": bool(ln.closed)},
+              "geometry": {"type": "LineString", "coordinates": np.asarray(ln.coords).tolist()}} for ln in lines]
+    with open(path, "w", encoding="utf-8") as fh:
+        json.dump({"type": "FeatureCollection", "features": feats}, fh)
+
+
+def territory_connected(plan: dict, crew_index: int) -> bool:
+    """A territory is one piece through its own streets and streets that need no service (networkx).
+
+    Drive-through streets may join groups of a territory's streets (the planner
+    links such groups); streets of other territories may not.
+    """
+    segs = plan["network"]["segments"]
+    ignore = plan["settings"]["profile"]["ignore_oneway"]
+    terr = plan["crews"][crew_index]["territory"]
+    if not terr:
+        return False
+    g = nx.MultiGraph()
+    for s in segs:
+        through = not s["closed"] and sum(passes_needed(s, ignore)) == 0
+        if through or s["id"] in set(terr):
+            g.add_edge(s["from"], s["to"], key=s["id"])
+    start = segs[terr[0]]["from"]
+    comp = nx.node_connected_component(g, start)
+    return all(segs[s]["from"] in comp for s in terr)

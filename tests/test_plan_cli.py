@@ -1,0 +1,120 @@
+"""``crewcut plan`` and ``crewcut verify`` end to end, and every bad input of the planning issue.
+
+Bad input must give exit status 2, a message naming what is wrong, no traceback,
+no output file, and an untouched input (brief: "Bad input").
+"""
+from __future__ import annotations
+
+import hashlib
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from fleetnets import check_plan_independently, grid_lines, nx_lower_bound, write_geojson
+from partition.cli import main
+from solve.network import RawLine
+
+
+def _run(capsys, *argv) -> tuple[int, str, str]:
+    code = main([str(a) for a in argv])
+    cap = capsys.readouterr()
+    return code, cap.out, cap.err
+
+
+@pytest.fixture()
+def town(tmp_path) -> Path:
+    path = tmp_path / "grid.geojson"
+    write_geojson(path, grid_lines(9, 6, 11))
+    return path
+
+
+def _digest(path: Path) -> str:
+    return hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+def test_plan_then_verify(tmp_path, town, capsys):
+    out = tmp_path / "out"
+    code, stdout, err = _run(capsys, "plan", town, "--crews", 3, "--depot", "-30.5,45.2", "--workers", 1,
+                             "--out", out)
+    assert code == 0, err
+    plan = json.loads((out / "plan.json").read_text())
+    check_plan_independently(plan)
+    assert plan["summary"]["longest_min"] >= nx_lower_bound(plan) - 1e-6
+    assert "lower bound" in stdout and "gap" in stdout
+    code, stdout, err = _run(capsys, "verify", out / "plan.json", town)
+    assert code == 0, err
+    assert stdout.startswith("valid")
+
+
+def test_same_seed_same_bytes_whatever_the_workers(tmp_path, town, capsys):
+    a, b = tmp_path / "a", tmp_path / "b"
+    assert _run(capsys, "plan", town, "--crews", 3, "--depot", "-30.5,45.2", "--workers", 1, "--out", a)[0] == 0
+    assert _run(capsys, "plan", town, "--crews", 3, "--depot", "-30.5,45.2", "--workers", 2, "--out", b)[0] == 0
+    assert (a / "plan.json").read_bytes() == (b / "plan.json").read_bytes()
+
+
+def test_verify_names_a_tampered_plan(tmp_path, town, capsys):
+    out = tmp_path / "out"
+    assert _run(capsys, "plan", town, "--crews", 2, "--depot", "-30.5,45.2", "--workers", 1, "--out", out)[0] == 0
+    plan = json.loads((out / "plan.json").read_text())
+    plan["crews"][0]["routes"][0]["traversals"].pop()
+    bad = tmp_path / "bad.json"
+    bad.write_text(json.dumps(plan))
+    code, _, err = _run(capsys, "verify", bad, town)
+    assert code == 2
+    assert "not at the depot" in err and "Traceback" not in err
+
+
+def _bad(capsys, tmp_path, network: Path, *args, expect: str) -> None:
+    before = _digest(network)
+    out = tmp_path / "never"
+    code, stdout, err = _run(capsys, "plan", network, *args, "--workers", 1, "--out", out)
+    assert code == 2
+    assert expect in err, err
+    assert "Traceback" not in err
+    assert not out.exists()
+    assert _digest(network) == before
+
+
+def test_bad_zero_crews(tmp_path, town, capsys):
+    _bad(capsys, tmp_path, town, "--crews", 0, "--depot", "-30.5,45.2", expect="at least one crew")
+
+
+def test_bad_more_crews_than_segments(tmp_path, town, capsys):
+    _bad(capsys, tmp_path, town, "--crews", 10_000, "--depot", "-30.5,45.2", expect="segments need service")
+
+
+def test_bad_unknown_crew_id(tmp_path, town, capsys):
+    cfg = tmp_path / "crews.toml"
+    cfg.write_text('[[crews]]\nid = "north"\ndepot = [-30.5, 45.2]\n')
+    _bad(capsys, tmp_path, town, "--config", cfg, "--crew", "south", expect="unknown crew id 'south'")
+
+
+def test_bad_depot_cannot_reach(tmp_path, capsys):
+    # an island joined only by a closed bridge: no depot can reach it
+    lines = grid_lines(4, 3, 2, drop=0.0, none_share=0.0, oneway_rows=False)
+    island = [RawLine(f"isle-{i}", ln.coords + np.array([0.01, 0.0]), road_class="residential",
+                      service="both_sides") for i, ln in enumerate(lines)]
+    bridge = RawLine("bridge", np.array([lines[-1].coords[1], island[0].coords[0]]), road_class="residential",
+                     service="none", closed=True)
+    path = tmp_path / "island.geojson"
+    write_geojson(path, lines + island + [bridge])
+    _bad(capsys, tmp_path, path, "--crews", 2, "--depot", "-30.5,45.2", expect="isle-")
+
+
+def test_bad_shift_limit_no_route_can_meet(tmp_path, town, capsys):
+    cfg = tmp_path / "short.toml"
+    cfg.write_text("[profile]\nshift_limit_min = 0.5\n")
+    _bad(capsys, tmp_path, town, "--config", cfg, "--crews", 2, "--depot", "-30.5,45.2",
+         expect="no route can meet the shift limit")
+
+
+def test_bad_depot_text(tmp_path, town, capsys):
+    _bad(capsys, tmp_path, town, "--crews", 2, "--depot", "north", expect="not LON,LAT")
+
+
+def test_bad_time_limit(tmp_path, town, capsys):
+    _bad(capsys, tmp_path, town, "--crews", 2, "--depot", "-30.5,45.2", "--time-limit", "-1",
+         expect="--time-limit")
