@@ -1,0 +1,89 @@
+"""Benchmark: planning generated towns for a fleet, against the route-first baseline.
+
+Run:  /work/venv/bin/python tests/bench_plan.py [--sizes 2000,20000] [--crews 4,12] [--workers 2]
+
+For each invented Tallowmere town (solve.towngen, seed 0) and crew count, with all
+crews sharing one depot at the town centre and the shipped curb-sweeping profile
+(shift limits raised to 24 h so that no limit interferes with balancing):
+
+* wall time of ``plan_fleet`` (territories, routes, balancing, lower bound);
+* longest shift / lower bound (solve.bounds.fleet_lower_bound), longest / mean;
+* deadhead share of the distance driven;
+* longest shift of the route-first, cluster-second baseline of Frederickson,
+  Hecht and Kim (1978) (one giant tour from solve.route.plan_route split into k
+  pieces, partition.baseline) and our longest over the baseline's.
+
+Targets (design.md section 6): 20,000 segments and 12 crews under 60 s on 2 cores,
+longest <= 1.10 x lower bound, longest / mean <= 1.03, better than the baseline.
+Not collected by pytest (the file name does not start with test_).
+"""
+from __future__ import annotations
+
+import argparse
+import dataclasses
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
+
+from partition.baseline import route_first_split  # noqa: E402
+from partition.crews import resolve_crews  # noqa: E402
+from partition.planner import plan_fleet  # noqa: E402
+from solve.profile import builtin_profile  # noqa: E402
+from solve.readers import read_network  # noqa: E402
+from solve.route import plan_route  # noqa: E402
+from solve.towngen import write_town  # noqa: E402
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--sizes", default="2000,20000")
+    ap.add_argument("--crews", default="4,12")
+    ap.add_argument("--workers", type=int, default=2)
+    ap.add_argument("--time-limit", type=float, default=30.0)
+    ap.add_argument("--seed", type=int, default=0)
+    a = ap.parse_args()
+    profile = dataclasses.replace(builtin_profile("curb-sweeping"), shift_limit_min=1440.0, crews=())
+    rows = []
+    with tempfile.TemporaryDirectory() as tmp:
+        for n in [int(x) for x in a.sizes.split(",")]:
+            path = Path(tmp) / f"town-{n}.geojson"
+            write_town(path, n, seed=0)
+            net = read_network(path, profile)
+            for k in [int(x) for x in a.crews.split(",")]:
+                crews = resolve_crews(net, profile, k=k, depot_lonlat=(-30.5, 45.2))
+                t0 = time.perf_counter()
+                plan = plan_fleet(net, profile, crews, seed=a.seed, workers=a.workers, time_limit_s=a.time_limit)
+                wall = time.perf_counter() - t0
+                s = plan["summary"]
+                t1 = time.perf_counter()
+                giant = plan_route(net, profile, crews[0].depot, None, seed=a.seed)
+                base = route_first_split(net, profile, crews[0].depot, k, giant=giant)
+                base_wall = time.perf_counter() - t1
+                base_longest = max(r.totals.total_min for r in base)
+                rows.append((net.n_segments, k, wall, s["longest_min"] / s["lower_bound_min"],
+                             s["longest_over_mean"], s["deadhead_pct"], s["longest_min"] / base_longest,
+                             base_wall, s["balance"]["stop"], s["balance"]["moves_kept"], s["balance"]["trials"]))
+                print(_fmt(rows[-1]), flush=True)
+    print()
+    print(_header())
+    for r in rows:
+        print(_fmt(r))
+
+
+def _header() -> str:
+    return (f"{'segments':>8} {'crews':>5} {'wall s':>7} {'longest/LB':>10} {'longest/mean':>12} "
+            f"{'deadhead %':>10} {'ours/baseline':>13} {'baseline s':>10}  balancer")
+
+
+def _fmt(r) -> str:
+    n, k, wall, lb, lm, dh, vb, bw, stop, kept, tried = r
+    return (f"{n:>8,} {k:>5} {wall:>7.1f} {lb:>10.3f} {lm:>12.3f} {dh:>10.1f} {vb:>13.3f} {bw:>10.1f}  "
+            f"{stop}, {kept} kept / {tried} tried")
+
+
+if __name__ == "__main__":
+    print(_header())
+    main()
