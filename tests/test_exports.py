@@ -19,9 +19,19 @@ from planfactory import make_plan
 GEOD = Geod(ellps="WGS84")
 
 
-@pytest.fixture(scope="module")
-def plan():
-    return make_plan(k=3)
+@pytest.fixture(scope="module", params=["test-factory", "crewcut-plan"])
+def plan(request, tmp_path_factory):
+    """A hand-made plan, and a plan made by the project's own planner on a small generated town."""
+    if request.param == "test-factory":
+        return make_plan(k=3)
+    pytest.importorskip("solve.eulerize", reason="the route engine (solve.eulerize) is not in this tree yet")
+    from solve.towngen import write_town
+
+    d = tmp_path_factory.mktemp("planned")
+    write_town(d / "town.geojson", 150, 0)
+    assert main(["--quiet", "plan", str(d / "town.geojson"), "--crews", "3", "--depot=-30.5,45.2",
+                 "--out", str(d), "--time-limit", "5", "--workers", "1"]) == 0
+    return json.loads((d / "plan.json").read_text())
 
 
 @pytest.fixture()
