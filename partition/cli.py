@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import re
 import sys
 
 from rich.console import Console
@@ -75,9 +76,20 @@ def parse_lonlat(text: str, what: str = "--depot") -> tuple[float, float]:
     return lon, lat
 
 
+def _glue_negative_lonlat(argv: list[str]) -> list[str]:
+    """'--depot -30.5,45.2' -> '--depot=-30.5,45.2': argparse takes '-30.5,45.2' for an option."""
+    out: list[str] = []
+    for a in argv:
+        if out and out[-1].startswith("--") and "=" not in out[-1] and re.fullmatch(r"-\d[\d.]*,.*", a):
+            out[-1] = f"{out[-1]}={a}"
+        else:
+            out.append(a)
+    return out
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args = parser.parse_args(_glue_negative_lonlat(sys.argv[1:] if argv is None else list(argv)))
     if not getattr(args, "_run", None):
         parser.print_help()
         return 2
