@@ -34,7 +34,13 @@ def read_csv_edges(path: str | Path, profile: Profile) -> Network:
         raise InputError(f"{path}: not a UTF-8 text file", "save the CSV as UTF-8") from None
     except OSError as exc:
         raise InputError(f"{path}: cannot be read ({exc.strerror})") from None
-    reader = csv.reader(io.StringIO(text, newline=""))
+    try:
+        return _parse(path, csv.reader(io.StringIO(text, newline="")), profile)
+    except csv.Error as exc:
+        raise InputError(f"{path}: not a readable CSV file ({exc})", "save it as plain comma-separated text") from None
+
+
+def _parse(path: Path, reader, profile: Profile) -> Network:
     header = next(reader, None)
     if not header or not any(h.strip() for h in header):
         raise InputError(f"{path}: empty file, no header row",
