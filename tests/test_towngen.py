@@ -233,3 +233,53 @@ def test_example_loads_without_errors():
     assert not [f for f in net.findings if f.severity == "error"]
     shipped = json.loads(EXAMPLE.read_text(encoding="utf-8"))
     assert net.n_segments == len(shipped["features"])
+
+
+# ------------------------------------------------------------------ crewcut demo
+def test_demo_writes_the_example_town_and_config(tmp_path, capsys):
+    from partition.cli import main
+
+    out = tmp_path / "demo"
+    assert main(["demo", "--out", str(out), "--only-town"]) == 0
+    assert sorted(p.name for p in out.iterdir()) == ["tallowmere.geojson", "tallowmere.toml"]
+    assert (out / "tallowmere.toml").read_text(encoding="utf-8") == EXAMPLE_CONFIG.read_text(encoding="utf-8")
+    written = json.loads((out / "tallowmere.geojson").read_text(encoding="utf-8"))
+    shipped = json.loads(EXAMPLE.read_text(encoding="utf-8"))
+    assert [f["properties"] for f in written["features"]] == [f["properties"] for f in shipped["features"]]
+    assert "tallowmere.geojson" in capsys.readouterr().out
+
+
+@pytest.mark.parametrize("argv,words", [
+    (["--segments", "5"], "number of segments 5"),
+    (["--seed", "-2"], "seed must be"),
+])
+def test_demo_bad_numbers_exit_2_and_write_nothing(tmp_path, capsys, argv, words):
+    from partition.cli import main
+
+    out = tmp_path / "demo"
+    assert main(["demo", "--out", str(out), *argv]) == 2
+    err = capsys.readouterr().err
+    assert words in err and "fix:" in err and "Traceback" not in err
+    assert not out.exists()
+
+
+def test_demo_out_that_is_a_file_exits_2_and_leaves_it(tmp_path, capsys):
+    from partition.cli import main
+
+    f = tmp_path / "taken"
+    f.write_text("keep me", encoding="utf-8")
+    assert main(["demo", "--out", str(f)]) == 2
+    assert "is a file" in capsys.readouterr().err
+    assert f.read_text(encoding="utf-8") == "keep me"
+
+
+@pytest.mark.slow
+def test_demo_runs_its_stages_on_a_small_town(tmp_path, capsys):
+    from partition.cli import main
+
+    out = tmp_path / "demo"
+    code = main(["demo", "--out", str(out), "--segments", "300", "--seed", "1"])
+    text = capsys.readouterr().out
+    assert code == 0, text
+    assert "Demo stages" in text and "Result: plannable" in text  # the check stage ran and passed
+    assert "failed" not in text
