@@ -13,6 +13,11 @@ from partition.sheets import COMPASS, compass, crew_sheets, initial_bearing, rou
 from planfactory import make_plan
 
 
+
+@pytest.fixture(autouse=True)
+def _wide_console(monkeypatch):
+    monkeypatch.setenv("COLUMNS", "400")  # rich wraps messages at 80 columns when not on a terminal
+
 @pytest.fixture(scope="module")
 def plan():
     return make_plan(k=3)

@@ -18,6 +18,11 @@ from solve.errors import InputError
 SVG = "{http://www.w3.org/2000/svg}"
 
 
+
+@pytest.fixture(autouse=True)
+def _wide_console(monkeypatch):
+    monkeypatch.setenv("COLUMNS", "400")  # rich wraps messages at 80 columns when not on a terminal
+
 @pytest.fixture(scope="module")
 def plan():
     return make_plan(k=3)
