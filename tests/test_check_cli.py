@@ -79,7 +79,7 @@ def test_check_prints_summary_and_exits_0(capsys, tmp_path):
 def test_check_with_depot_reports_the_depot(capsys, tmp_path):
     path = write(tmp_path / "town.geojson", grid(3, 3))
     lon, lat = offset(3, 2)
-    assert main(["check", str(path), f"--depot={lon},{lat}"]) == 0
+    assert main(["check", str(path), "--depot", f"{lon},{lat}"]) == 0  # negative longitude, own argument
     assert "node 0 (from --depot" in _flat(capsys.readouterr().out)
 
 

@@ -20,8 +20,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--config", metavar="FILE",
                         help="work profile (TOML); default: the shipped curb-sweeping profile")
     parser.add_argument("--depot", metavar="LON,LAT",
-                        help="check reachability from this depot (default: the first crew's depot in --config); "
-                             "write --depot=LON,LAT when the longitude is negative")
+                        help="check reachability from this depot (default: the first crew's depot in --config)")
 
 
 def run(args, ui) -> int:
