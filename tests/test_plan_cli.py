@@ -45,7 +45,7 @@ def test_plan_then_verify(tmp_path, town, capsys):
     assert "lower bound" in stdout and "gap" in stdout
     code, stdout, err = _run(capsys, "verify", out / "plan.json", town)
     assert code == 0, err
-    assert "valid: 4 crews" in stdout
+    assert stdout.startswith("valid: 3 crews")
 
 
 def test_same_seed_same_bytes_whatever_the_workers(tmp_path, town, capsys):
