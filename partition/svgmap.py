@@ -52,7 +52,8 @@ def crew_dash(pv: PlanView) -> dict[str, str]:
 class _Frame:
     """Projection of the plan's lon/lat to SVG pixels (y down), fitted to the drawing area."""
 
-    def __init__(self, pv: PlanView) -> None:
+    def __init__(self, pv: PlanView, fit: list[int] | None = None) -> None:
+        """Fit the drawing to segments ``fit`` (all segments when None)."""
         pv.need_geometry()
         segs = pv.segments
         counts = [len(s["coords"]) for s in segs]
@@ -60,18 +61,26 @@ class _Frame:
         node_ll = np.array([[n["lon"], n["lat"]] for n in pv.nodes], float).reshape(-1, 2)
         allp = np.concatenate([pts, node_ll])
         x, y = project(allp[:, 0], allp[:, 1], pv.origin)
-        span = max(float(np.ptp(x)) if x.size else 0.0, float(np.ptp(y)) if y.size else 0.0, 1.0)
+        starts = np.concatenate([[0], np.cumsum(counts)]).astype(np.int64)
+        if fit:
+            sel = np.concatenate([np.arange(starts[s], starts[s + 1]) for s in sorted(set(fit))])
+            fx, fy = x[sel], y[sel]
+        else:
+            fx, fy = x, y
+        span = max(float(np.ptp(fx)) if fx.size else 0.0, float(np.ptp(fy)) if fy.size else 0.0, 1.0)
         self.scale = (WIDTH - 2 * MARGIN) / span  # px per metre, same both ways
-        self.x0 = float(x.min()) if x.size else 0.0
-        self.y1 = float(y.max()) if y.size else 0.0
-        self.height = int(math.ceil(max(float(np.ptp(y)) if y.size else 0.0, 1.0) * self.scale)) + 2 * MARGIN + 40
+        self.x0 = float(fx.min()) if fx.size else 0.0
+        self.y1 = float(fy.max()) if fy.size else 0.0
+        self.height = int(math.ceil(max(float(np.ptp(fy)) if fy.size else 0.0, 1.0) * self.scale)) + 2 * MARGIN + 40
         self.height = max(self.height, 300)
         px = (x - self.x0) * self.scale + MARGIN
         py = (self.y1 - y) * self.scale + MARGIN + 30  # room for the title
         n = len(pts)
-        starts = np.concatenate([[0], np.cumsum(counts)])
         self.seg_px = [np.stack([px[a:b], py[a:b]], 1) for a, b in zip(starts[:-1], starts[1:])]
         self.node_px = np.stack([px[n:], py[n:]], 1)
+        # segments with a vertex on the canvas (the others are left out of zoomed maps)
+        on = (px >= 0) & (px <= WIDTH) & (py >= 0) & (py <= self.height)
+        self.visible = [bool(on[a:b].any()) for a, b in zip(starts[:-1], starts[1:])]
 
     def seg(self, s: int, reverse: bool = False) -> np.ndarray:
         p = self.seg_px[s]
@@ -204,11 +213,13 @@ def territory_svg(pv: PlanView, standalone: bool = True) -> str:
 
 def route_svg(pv: PlanView, crew: dict, standalone: bool = True) -> str:
     """One crew's routes: service in the crew colour with arrows, deadhead thin, dashed and grey."""
-    fr = _Frame(pv)
+    used = sorted({int(s) for s in crew["territory"]}
+                  | {st.segment for r in crew["routes"] for st in pv.steps(r)})
+    fr = _Frame(pv, fit=used)  # zoomed to the crew's own streets
     colour = crew_colours(pv)[crew["id"]]
     side = 2.6 if pv.traffic == "right" else -2.6  # draw on the driving side of the centre line
     body = [f'<g fill="none" stroke="{BACKGROUND}" stroke-width="1.4" stroke-linecap="round">']
-    body += [f'<path d="{_path(fr.seg(s))}"/>' for s in range(len(pv.segments))]
+    body += [f'<path d="{_path(fr.seg(s))}"/>' for s in range(len(pv.segments)) if fr.visible[s]]
     body.append("</g>")
     dead, serve, arrows = [], [], []
     n_serve = n_dead = 0
