@@ -151,3 +151,80 @@ def test_wrong_minutes(valid):
     p = copy.deepcopy(plan)
     p["crews"][0]["routes"][0]["traversals"][2]["minutes"] += 0.5
     assert "minutes" in _first(p, net, profile)
+
+
+# ----------------------------------------------------------------------------- the JSON Schema
+def _validate(doc, schema, root, path="$"):
+    """The subset of JSON Schema draft 2020-12 that partition/plan.schema.json uses.
+
+    jsonschema is not a dependency; this small walker follows the keyword
+    definitions of the draft (json-schema.org, "JSON Schema Validation", 2020-12).
+    Yields error strings.
+    """
+    import re
+
+    if "$ref" in schema:
+        ref = schema["$ref"].split("/")[1:]
+        target = root
+        for part in ref:
+            target = target[part]
+        yield from _validate(doc, target, root, path)
+        return
+    types = schema.get("type")
+    if types is not None:
+        types = [types] if isinstance(types, str) else types
+        check = {"object": lambda v: isinstance(v, dict), "array": lambda v: isinstance(v, list),
+                 "string": lambda v: isinstance(v, str), "boolean": lambda v: isinstance(v, bool),
+                 "integer": lambda v: isinstance(v, int) and not isinstance(v, bool),
+                 "number": lambda v: isinstance(v, (int, float)) and not isinstance(v, bool),
+                 "null": lambda v: v is None}
+        if not any(check[t](doc) for t in types):
+            yield f"{path}: {doc!r:.40} is not {types}"
+            return
+    if "const" in schema and doc != schema["const"]:
+        yield f"{path}: not {schema['const']!r}"
+    if "enum" in schema and doc not in schema["enum"]:
+        yield f"{path}: {doc!r} not in {schema['enum']}"
+    if isinstance(doc, (int, float)) and not isinstance(doc, bool):
+        if "minimum" in schema and doc < schema["minimum"]:
+            yield f"{path}: {doc} < {schema['minimum']}"
+        if "maximum" in schema and doc > schema["maximum"]:
+            yield f"{path}: {doc} > {schema['maximum']}"
+        if "exclusiveMinimum" in schema and doc <= schema["exclusiveMinimum"]:
+            yield f"{path}: {doc} <= {schema['exclusiveMinimum']}"
+    if isinstance(doc, str) and "pattern" in schema and not re.search(schema["pattern"], doc):
+        yield f"{path}: does not match {schema['pattern']}"
+    if isinstance(doc, dict):
+        for key in schema.get("required", []):
+            if key not in doc:
+                yield f"{path}: missing '{key}'"
+        props = schema.get("properties", {})
+        extra = schema.get("additionalProperties", True)
+        for key, value in doc.items():
+            if key in props:
+                yield from _validate(value, props[key], root, f"{path}.{key}")
+            elif extra is False:
+                yield f"{path}: unexpected key '{key}'"
+            elif isinstance(extra, dict):
+                yield from _validate(value, extra, root, f"{path}.{key}")
+    if isinstance(doc, list):
+        if len(doc) < schema.get("minItems", 0) or len(doc) > schema.get("maxItems", len(doc)):
+            yield f"{path}: {len(doc)} items"
+        if "items" in schema:
+            for i, value in enumerate(doc):
+                yield from _validate(value, schema["items"], root, f"{path}[{i}]")
+
+
+def test_plan_matches_its_schema(valid):
+    import json
+    from pathlib import Path
+
+    schema = json.loads((Path(__file__).resolve().parent.parent / "partition" / "plan.schema.json").read_text())
+    assert schema["$schema"] == "https://json-schema.org/draft/2020-12/schema"
+    plan = json.loads(json.dumps(valid[0]))  # as written to disk
+    assert list(_validate(plan, schema, schema)) == []
+    broken = copy.deepcopy(plan)
+    broken["crews"][0]["routes"][0]["traversals"][0]["mode"] = "sweeping"
+    del broken["network"]["segments"][0]["passes"]
+    errors = list(_validate(broken, schema, schema))
+    assert any("sweeping" in e for e in errors) and any("passes" in e for e in errors)
