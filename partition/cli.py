@@ -27,7 +27,7 @@ class UI:
     def __init__(self, quiet: bool = False) -> None:
         self.quiet = quiet
         self.out = Console(quiet=quiet, highlight=False)
-        self.err = Console(stderr=True, highlight=False)
+        self.err = Console(stderr=True, highlight=False, soft_wrap=True)
 
     def progress(self, *columns, **kw):
         from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
