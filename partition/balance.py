@@ -24,6 +24,11 @@ is retried at half and a quarter of the size; when all fail, the batch is offere
 as a swap (the lighter crew hands back an equal amount of its own border) before
 the pair is set aside until one of them changes. Stops at a tolerance on longest
 over mean, an iteration limit, a time limit, or when no pair improves.
+
+An optional ``move_cost(c, n, give, take)`` charges a move (in shares of a shift
+limit, clamped at 0): the move is kept only when the new larger share plus the
+charge is still below the old one. Rebalancing uses it to make segments that
+leave their old crew cost something; without it the balancer is unchanged.
 """
 from __future__ import annotations
 
@@ -41,6 +46,8 @@ from .streets import StreetGraph
 from .territories import pieces
 
 ProgressFn = Callable[[str, float, float], None]
+# move_cost(heavy crew, light crew, segments given, segments taken back) -> share of a shift limit
+MoveCostFn = Callable[[int, int, np.ndarray, np.ndarray], float]
 
 
 @dataclass
@@ -86,8 +93,8 @@ class FleetState:
 
 def balance(state: FleetState, sg: StreetGraph, router: Router, eligible: np.ndarray, *, seed: int = 0,
             tolerance: float = 0.01, max_iterations: int = 500, time_limit_s: float = 30.0,
-            progress: ProgressFn | None = None) -> BalanceReport:
-    """Balance ``state`` in place; returns a before/after report."""
+            progress: ProgressFn | None = None, move_cost: MoveCostFn | None = None) -> BalanceReport:
+    """Balance ``state`` in place; returns a before/after report (``move_cost``: see the module notes)."""
     t0 = time.perf_counter()
     k = len(state.routes)
     sh = state.shifts
@@ -122,7 +129,7 @@ def balance(state: FleetState, sg: StreetGraph, router: Router, eligible: np.nda
                 key = (c, n, state.version[c], state.version[n])
                 if key in failed:
                     continue
-                if _try_pair(state, sg, router, eligible, c, n, seed, rep):
+                if _try_pair(state, sg, router, eligible, c, n, seed, rep, move_cost):
                     kept = True
                     break
                 failed.add(key)
@@ -154,8 +161,12 @@ def _crew_pairs(owner: np.ndarray, row_of: np.ndarray, nb_idx: np.ndarray) -> di
     return out
 
 
+def _cost(move_cost: MoveCostFn | None, c: int, n: int, give: np.ndarray, take: np.ndarray) -> float:
+    return 0.0 if move_cost is None else max(0.0, float(move_cost(c, n, give, take)))
+
+
 def _try_pair(state: FleetState, sg: StreetGraph, router: Router, eligible: np.ndarray, c: int, n: int,
-              seed: int, rep: BalanceReport) -> bool:
+              seed: int, rep: BalanceReport, move_cost: MoveCostFn | None = None) -> bool:
     """Move work from heavy crew ``c`` to its lighter neighbour ``n``; True when a move was kept."""
     rc, rn = state.routes[c], state.routes[n]
     lc, ln = state.limits[c], state.limits[n]
@@ -174,16 +185,19 @@ def _try_pair(state: FleetState, sg: StreetGraph, router: Router, eligible: np.n
             continue
         w = float(sg.work[batch].sum())
         est = max((tc - fc * w) / lc, (tn + fn * w) / ln)
-        if est >= old:
+        none = np.zeros(0, np.int64)
+        cost = _cost(move_cost, c, n, batch, none)
+        if est + cost >= old:
             continue
-        if _apply_if_better(state, sg, router, c, n, batch, np.zeros(0, np.int64), old, seed, rep):
+        if _apply_if_better(state, sg, router, c, n, batch, none, old, seed, rep, cost):
             rep.moves_kept += 1
             return True
     # a swap: the same border batch goes over, an equal share of the neighbour's border comes back
     batch = _grow_batch(state, sg, eligible, c, n, want * 0.5)
     if batch is not None and batch.size:
         back = _grow_batch(state, sg, eligible, n, c, float(sg.work[batch].sum()) * 0.5, avoid=batch)
-        if back is not None and back.size and _apply_if_better(state, sg, router, c, n, batch, back, old, seed, rep):
+        if back is not None and back.size and _apply_if_better(state, sg, router, c, n, batch, back, old, seed, rep,
+                                                               _cost(move_cost, c, n, batch, back)):
             rep.swaps_kept += 1
             return True
     return False
@@ -256,7 +270,7 @@ def _centre(sg: StreetGraph, segs: np.ndarray) -> tuple[float, float]:
 
 
 def _apply_if_better(state: FleetState, sg: StreetGraph, router: Router, c: int, n: int, give: np.ndarray,
-                     take: np.ndarray, old: float, seed: int, rep: BalanceReport) -> bool:
+                     take: np.ndarray, old: float, seed: int, rep: BalanceReport, cost: float = 0.0) -> bool:
     owner = state.owner.copy()
     owner[give] = n
     owner[take] = c
@@ -269,7 +283,7 @@ def _apply_if_better(state: FleetState, sg: StreetGraph, router: Router, c: int,
     r_c, r_n = router.route_many(jobs)
     rep.territories_routed += 2
     new = max(r_c.totals.total_min / state.limits[c], r_n.totals.total_min / state.limits[n])
-    if new < old - 1e-9:
+    if new < old - 1e-9 and new + cost < old - 1e-9:
         state.owner[:] = owner
         state.routes[c], state.routes[n] = r_c, r_n
         state.version[c] += 1
