@@ -127,7 +127,8 @@ def augmented_traversals(net: Network, profile: Profile, depot: int, segments=No
     n_tasks = int(np.asarray(tasks.seg).size)
     if n_tasks == 0:
         return None
-    aug = eulerize(tasks, arcs, depot, net.n_nodes, time_limit_s=float(time_limit_s), seed=int(seed))
+    aug = eulerize(tasks, arcs, depot, net.n_nodes, time_limit_s=float(time_limit_s), seed=int(seed),
+                   seg_source=net.seg_source)
 
     # the tasks as driven, then the added deadhead traversals
     orient = np.asarray(aug.orientation, bool)

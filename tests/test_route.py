@@ -213,7 +213,6 @@ def test_property_routes_on_mixed_networks(case, turn_aware):
 
 
 # --------------------------------------------------------------- real streets
-@pytest.mark.slow
 def test_helsinki_whole_extract(helsinki_pbf):
     # OpenStreetMap data (c) OpenStreetMap contributors, ODbL; see tests/conftest.py
     from solve.readers import read_network
