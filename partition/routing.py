@@ -39,7 +39,7 @@ class RouteJob:
     def of(depot: int, segments, plan_seed: int) -> "RouteJob":
         segs = tuple(int(s) for s in sorted(int(x) for x in segments))
         h = hashlib.sha256(f"{plan_seed}|{depot}|{segs}".encode()).digest()
-        return RouteJob(int(depot), segs, int.from_bytes(h[:4], "little"))
+        return RouteJob(int(depot), segs, int.from_bytes(h[:4], "little") & 0x7FFFFFFF)  # solvers take int32 seeds
 
 
 class Router(Protocol):
