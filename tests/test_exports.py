@@ -33,7 +33,7 @@ def plan(request, tmp_path_factory):
     from solve.towngen import write_town
 
     d = tmp_path_factory.mktemp("planned")
-    write_town(d / "town.geojson", 150, 0)
+    write_town(d / "town.geojson", 200, 0)
     assert main(["--quiet", "plan", str(d / "town.geojson"), "--crews", "3", "--depot=-30.5,45.2",
                  "--out", str(d), "--time-limit", "5", "--workers", "1"]) == 0
     return json.loads((d / "plan.json").read_text())
