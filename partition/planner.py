@@ -36,7 +36,7 @@ from .planfile import CrewPlan, build_plan
 from .routing import LocalRouter, RouteJob, Router
 from .seeding import seed_territories
 from .streets import build_street_graph, depot_travel, round_trips
-from .territories import _describe, grow_territories, territories_of
+from .territories import _describe, grow_territories, smooth_boundaries, territories_of
 
 ProgressFn = Callable[[str, float, float], None]
 
@@ -81,6 +81,7 @@ def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: 
     centres, seeds = seed_territories(sg, depot_xy, eligible, seed=seed)
     approach = np.array([rt[c, s] - sg.service_min[s] if s >= 0 else 0.0 for c, s in enumerate(seeds)])
     owner = grow_territories(net, sg, centres, seeds, eligible, approach)
+    smooth_boundaries(net, sg, owner, eligible)
     report("territories", 1, 1)
     own_router = router is None
     if own_router:

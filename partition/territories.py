@@ -161,3 +161,69 @@ def territories_of(owner: np.ndarray, k: int) -> list[np.ndarray]:
     order = np.argsort(owner, kind="stable")
     o = owner[order]
     return [order[o == c] for c in range(k)]
+
+
+def smooth_boundaries(net: Network, sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray,
+                      rounds: int = 4) -> int:
+    """Hand dangling border segments to a neighbour territory; returns the number of moves.
+
+    Where a territory holds only one segment at a node from which streets go on,
+    its crew must turn back there (a U-turn, 90 s for a sweeper, or a detour).
+    Call such a (territory, node) pair a *dead end* (real dead ends, nodes with a
+    single street, do not count). A pendant segment ``s`` of territory A (A has
+    no other segment at its end x) moves to a territory B that holds a segment at
+    x when that lowers the number of dead ends of A and B at the ends of ``s``.
+    Both stay connected: ``s`` hangs off A, and joins B at x. Moves change the
+    work slightly; the balancer evens it out afterwards.
+    """
+    u, v = net.seg_u, net.seg_v
+    req = np.flatnonzero(sg.required)
+    degree = np.bincount(np.concatenate([u[req], v[req]]), minlength=net.n_nodes)
+    moved = 0
+    for _ in range(rounds):
+        count: dict[tuple[int, int], int] = {}
+        for s in req.tolist():
+            c = int(owner[s])
+            for x in (int(u[s]), int(v[s])):
+                count[(c, x)] = count.get((c, x), 0) + 1
+        at_node: dict[int, set[int]] = {}
+        for (c, x) in count:
+            at_node.setdefault(x, set()).add(c)
+
+        def dead(c: int, x: int, delta: int = 0) -> int:
+            return int(degree[x] > 1 and count.get((c, x), 0) + delta == 1)
+
+        changed = 0
+        for s in req.tolist():
+            a = int(owner[s])
+            ends = (int(u[s]), int(v[s]))
+            if ends[0] == ends[1]:
+                continue
+            for x, y in (ends, ends[::-1]):
+                if count.get((a, x), 0) != 1 or count.get((a, y), 0) < 2:
+                    continue
+                # a link (not through a shared node) might hold A together: leave those alone
+                nb = sg.neighbours(s)
+                if np.any((owner[nb] == a) & (u[nb] != x) & (v[nb] != x) & (u[nb] != y) & (v[nb] != y)):
+                    continue
+                best, gain = -1, 0
+                for b in sorted(at_node.get(x, ())):
+                    if b == a or not eligible[b, s]:
+                        continue
+                    before = dead(a, x) + dead(a, y) + dead(b, x) + dead(b, y)
+                    after = dead(a, x, -1) + dead(a, y, -1) + dead(b, x, 1) + dead(b, y, 1)
+                    if before - after > gain:
+                        best, gain = b, before - after
+                if best < 0:
+                    continue
+                owner[s] = best
+                for z in ends:
+                    count[(a, z)] -= 1
+                    count[(best, z)] = count.get((best, z), 0) + 1
+                    at_node.setdefault(z, set()).add(best)
+                changed += 1
+                break
+        moved += changed
+        if not changed:
+            break
+    return moved
