@@ -23,6 +23,9 @@ class InputError(Exception):
         self.message = message
         self.hint = hint
 
+    def __reduce__(self):  # keep the hint when raised in a worker process
+        return (type(self), (self.message, self.hint))
+
     def __str__(self) -> str:
         if self.hint:
             return f"{self.message}\n  fix: {self.hint}"
