@@ -27,8 +27,10 @@ extra isolated edge of weight exactly 2**24 - 1. The answer is then an exact
 minimum T-join for the weights ``q``; ``unit * q(J)`` is a proven lower bound on
 the true optimum (floors never exceed the true costs), and the true cost of ``J``
 exceeds it by less than ``|J| * unit``. On a street network ``unit`` is a
-billionth of the network's total cost (about a millisecond on a town), far
-below the precision of the input lengths.
+billionth of the network's total cost (about a hundredth of a second on a
+100,000-segment town), far below the precision of the input lengths; on such a
+town the proven bound sits about 0.005 % below the cost, the sum of the floors
+cut off the chosen edges.
 
 References
 ----------
