@@ -27,22 +27,34 @@ Method
 4. Grow: the pool goes to neighbouring territories, the least loaded crew
    (estimated minutes over shift limit) taking the pool segment next to its
    territory nearest to its centre, until the pool is empty.
-5. Only territories that changed are routed again
+5. Hand on: the crews that took the pool are now heavier than the rest. A
+   minimum-cost flow on the graph of neighbouring territories (OR-tools)
+   says how much work each crew hands to which neighbour so that no estimated
+   share exceeds the mean by more than the tolerance, with as little work
+   crossing borders as possible (each segment that crosses is charged the
+   stability weight, each minute of excess left in place one minute); the
+   balancer's border batches carry it out.
+6. Only territories that changed are routed again
    (:class:`partition.routing.LocalRouter`); the others keep their routes.
-6. The balancer (:func:`partition.balance.balance`) evens out the shifts with
-   a stability charge: a move must shorten the larger of the two shifts by at
-   least ``stability`` minutes for every segment it takes away from the crew
-   that had it in the parent plan (segments going back to it are free, so are
-   segments that had no crew: the absent crews' and the added ones).
-7. Work that does not fit: with ``overflow="defer"`` the lowest-priority
+7. The balancer (:func:`partition.balance.balance`) evens out what the
+   estimates missed, with a stability charge: a move must shorten the larger
+   of the two shifts by at least ``stability`` minutes for every segment it
+   takes away from the crew that had it in the parent plan (segments going
+   back to it are free, so are segments that had no crew: the absent crews'
+   and the added ones).
+8. Work that does not fit: with ``overflow="defer"`` the lowest-priority
    segments of each crew over its limit (priority per road class,
    :meth:`solve.profile.Profile.priority_for`; lower numbers wait first, the
    farthest from the depot first among equals) are deferred until every shift
    fits; with ``"overtime"`` the plan keeps all work and reports each crew's
    overtime; with ``None`` it only says which crews are over.
-8. Lower bound (:func:`solve.bounds.fleet_lower_bound`) for the crews at work,
+9. Lower bound (:func:`solve.bounds.fleet_lower_bound`) for the crews at work,
    the summary (:func:`partition.planner.fleet_summary`), the history and the
    change report.
+
+How many segments must change hands depends on the map: the work of an
+absent crew can only go to its neighbouring territories, and from there on
+to theirs; the fewer neighbours it has, the more work has to travel on.
 
 Which networks are accepted
 ---------------------------
@@ -922,8 +934,9 @@ def change_lines(rep: dict) -> list[str]:
                      + ", ".join(f"{o['crew']} over by {o['over_min']:.0f} min" for o in rep["over_limit"]))
     if "overtime" in rep:
         tot = sum(o["overtime_min"] for o in rep["overtime"])
-        lines.append(f"overtime needed: {tot:.0f} min in all" + (": " + ", ".join(
-            f"{o['crew']} {o['overtime_min']:.0f} min" for o in rep["overtime"]) if rep["overtime"] else ""))
+        lines.append(f"overtime needed: {tot:.0f} min in all: " + ", ".join(
+            f"{o['crew']} {o['overtime_min']:.0f} min" for o in rep["overtime"]) if rep["overtime"]
+            else "no overtime needed: every shift fits its limit")
     if rep["deferred"]:
         lines.append(f"deferred so that every shift fits: {len(rep['deferred']):,} segment(s) (the defer list is in "
                      f"the plan file under \"deferred\")")
