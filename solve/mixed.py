@@ -214,7 +214,7 @@ def cpsat_mixed(it, ih, idir, at, ah, ac, n_nodes, time_limit_s, seed, hint=None
     status = solver.solve(model)
     bound = max(0.0, solver.best_objective_bound / SCALE)
     if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
-        return None if status != cp_model.INFEASIBLE else None
+        return None  # no solution within the limit (infeasible cannot happen: the flow found one)
     orient = np.ones(it.size, bool)
     orient[u] = [bool(solver.value(var)) for var in o]
     counts = np.zeros(at.size, np.int64)
