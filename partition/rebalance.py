@@ -89,7 +89,7 @@ from solve.network import SERVICE_LABELS, Network, RawLine
 from solve.profile import Profile
 from solve.result import Route, RouteTotals, Traversal
 
-from .balance import BalanceReport, FleetState, balance
+from .balance import FleetState, balance
 from .planfile import CrewPlan, build_plan, dumps
 from .planner import fleet_summary
 from .routing import LocalRouter, RouteJob, Router
@@ -677,7 +677,9 @@ def rebalance_plan(plan: dict, net: Network, *, absent: Sequence[str] = (),
         _release_pieces(sg, owner, k)
     load = np.array([float(sg.work[owner == i].sum()) * est_rate[i] for i in range(k)])
     _grow_pool(sg, owner, eligible, load, limits, sg.work * (1.0 + DEADHEAD_ALLOWANCE))
+    report("handing on work", 0, 1)
     _transfers(sg, owner, eligible, limits, est_rate, BAND * tolerance, stability)
+    report("handing on work", 1, 1)
     left = np.flatnonzero(sg.required & (owner < 0))
     if left.size:
         _attach_leftovers(sg, owner, eligible, left)
