@@ -19,8 +19,9 @@ fits. Then, side by side, each case is rebalanced from that plan
 
 Figures per case: wall time of the rebalance; segments that changed hands and
 their share of the segments needing service; changed / the absent crews'
-segments; longest / mean shift; longest / lower bound; whether every shift is
-within its limit.
+segments; how many territories border the absent ones; longest / mean shift;
+longest / lower bound; whether every shift is within its limit; how many crews
+need a new route sheet.
 
 Targets (issue 5; design.md section 6): one crew absent rebalanced in under
 10 s on 2 cores, changed hands <= 1.3 x the absent crew's segments, longest /
@@ -125,11 +126,12 @@ def main() -> None:
         wall = time.perf_counter() - t0
         ns = new["summary"]
         absent = sum(sizes[c] for c in kw.get("absent", []))
+        nbrs = len(_neighbours(plan, kw["absent"])) if kw.get("absent") else None
         fits = not ns["over_limit"]
         rows.append((name, wall, rep["changed_hands"], rep["changed_hands_share"],
                      rep["changed_hands"] / absent if absent else float("nan"), ns["longest_over_mean"],
                      ns["longest_min"] / ns["lower_bound_min"], fits, ns["balance"]["stop"],
-                     len(rep["routes_changed"])))
+                     len(rep["routes_changed"]), nbrs))
         print(_fmt(rows[-1]), flush=True)
         if name.startswith("absent") and "stability" not in name:
             one.append(rows[-1])
@@ -144,16 +146,28 @@ def main() -> None:
           f"(target <= 1.05)")
 
 
+def _neighbours(plan: dict, absent: list[str]) -> set[str]:
+    """Crews at work whose territory shares an intersection with an absent crew's territory."""
+    segs = plan["network"]["segments"]
+    at: dict[int, set[str]] = {}
+    for c in plan["crews"]:
+        for s in c["territory"]:
+            for n in (segs[s]["from"], segs[s]["to"]):
+                at.setdefault(n, set()).add(c["id"])
+    gone = set(absent)
+    return {c for crews in at.values() if crews & gone for c in crews} - gone
+
+
 def _header() -> str:
-    return (f"{'case':<28} {'wall s':>6} {'changed':>7} {'share %':>7} {'changed/absent':>14} {'longest/mean':>12} "
-            f"{'longest/LB':>10} {'fits':>4} {'new sheets':>10}  balancer stop")
+    return (f"{'case':<28} {'wall s':>6} {'changed':>7} {'share %':>7} {'changed/absent':>14} {'neighbours':>10} "
+            f"{'longest/mean':>12} {'longest/LB':>10} {'fits':>4} {'new sheets':>10}  balancer stop")
 
 
 def _fmt(r) -> str:
-    name, wall, ch, share, ratio, lm, lb, fits, stop, sheets = r
+    name, wall, ch, share, ratio, lm, lb, fits, stop, sheets, nbrs = r
     rs = "-" if ratio != ratio else f"{ratio:.2f}"
-    return (f"{name:<28} {wall:>6.1f} {ch:>7,} {100 * share:>7.1f} {rs:>14} {lm:>12.3f} {lb:>10.3f} "
-            f"{'yes' if fits else 'no':>4} {sheets:>10}  {stop}")
+    return (f"{name:<28} {wall:>6.1f} {ch:>7,} {100 * share:>7.1f} {rs:>14} {'-' if nbrs is None else nbrs:>10} "
+            f"{lm:>12.3f} {lb:>10.3f} {'yes' if fits else 'no':>4} {sheets:>10}  {stop}")
 
 
 if __name__ == "__main__":

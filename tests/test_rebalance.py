@@ -395,3 +395,15 @@ def test_bad_street_closed_in_the_file_but_not_named(tmp_path, planned, capsys):
     closed_town = tmp_path / "closed.geojson"
     write_geojson(closed_town, [dataclasses.replace(ln, closed=ln.source_id == sid) for ln in lines])
     _bad(capsys, tmp_path, base, closed_town, expect="closed in the file but not named with --close")
+
+
+def test_bad_recorded_network_gone(tmp_path, planned, capsys):
+    town, base = planned
+    plan = _load(base)
+    plan["network"]["source"] = str(tmp_path / "moved-away.geojson")
+    moved = tmp_path / "moved.json"
+    moved.write_text(json.dumps(plan))
+    out = tmp_path / "never"
+    code, _, err = _run(capsys, "rebalance", moved, "--absent", "crew-1", "--out", out)
+    assert code == 2 and "give the street network with --network FILE" in err and "Traceback" not in err
+    assert not out.exists()
