@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import re
 import sys
 
@@ -26,7 +27,9 @@ class UI:
 
     def __init__(self, quiet: bool = False) -> None:
         self.quiet = quiet
-        self.out = Console(quiet=quiet, highlight=False)
+        # Piped output (logs, files) gets room for the wide tables instead of rich's 80 columns.
+        width = None if sys.stdout.isatty() or os.environ.get("COLUMNS") else 160
+        self.out = Console(quiet=quiet, highlight=False, width=width)
         self.err = Console(stderr=True, highlight=False, soft_wrap=True)
 
     def progress(self, *columns, **kw):

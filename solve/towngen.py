@@ -585,7 +585,7 @@ def town_depots(town: dict) -> list[tuple[str, tuple[float, float]]]:
 
 
 def town_config(town: dict) -> str:
-    """A curb-sweeping config (TOML text) for a generated town: five crews, two depots.
+    """A curb-sweeping config (TOML text) for a generated town: eleven crews, two depots.
 
     Everything but the crews is the shipped curb-sweeping profile, word for word,
     so its values keep their provenance comments.
@@ -599,13 +599,14 @@ def town_config(town: dict) -> str:
         cut -= 1  # drop the comment that introduces the shipped crews
     head = "\n".join(lines[:cut]).rstrip() + "\n"
     (l1, d1), (l2, d2) = town_depots(town)
-    crews = [("sweeper-1", d1, l1), ("sweeper-2", d1, l1), ("sweeper-3", d1, l1),
-             ("sweeper-4", d2, l2), ("sweeper-5", d2, l2)]
+    # Eleven crews: the example town's curbs take about 77 crew-hours to sweep, so
+    # eleven 8-hour shifts fit; six work from the downtown yard, five from the other.
+    crews = [(f"sweeper-{i + 1}", d1, l1) if i < 6 else (f"sweeper-{i + 1}", d2, l2) for i in range(11)]
     out = [f"# Curb sweeping in {TOWN_NAME}, an invented town ({len(town['features']):,} street segments,",
            f"# seed {town['town']['seed']}), written by solve.towngen.town_config. Not a real place.",
            "", head,
-           f"# Crews of the invented demo town ({TOWN_NAME}): three work from the downtown yard,",
-           "# two from the south-east yard. Each depot sits on an intersection."]
+           f"# Crews of the invented demo town ({TOWN_NAME}): six work from the downtown yard,",
+           "# five from the south-east yard. Each depot sits on an intersection."]
     for cid, (lon, lat), label in crews:
         out += ["", "[[crews]]", f'id = "{cid}"', f"depot = [{lon!r}, {lat!r}]   # {label}"]
     return "\n".join(out) + "\n"

@@ -5,7 +5,6 @@ import argparse
 import time
 from pathlib import Path
 
-from rich.table import Table
 
 NAME = "plan"
 HELP = "split a street network into balanced territories, one per crew, and route every crew"
@@ -69,37 +68,19 @@ def run(args, ui) -> int:
 
 
 def _print(ui, plan: dict, path: Path, seconds: float) -> None:
-    s = plan["summary"]
-    try:
-        from ..workload import workload_table
+    # The workload table's caption already gives longest / mean, the bound, the gap
+    # and the crews over their limit; add only what the table does not say.
+    from ..workload import workload_table
 
-        ui.out.print(workload_table(plan))
-    except ImportError:
-        ui.out.print(_fallback_table(plan))
+    s = plan["summary"]
+    ui.out.print(workload_table(plan))
+    ui.out.print("the gap is an upper bound on how far this heuristic plan is from the best possible")
     b = s.get("balance", {})
-    ui.out.print(f"longest shift {s['longest_min'] / 60:.2f} h, mean {s['mean_min'] / 60:.2f} h, "
-                 f"longest / mean {s['longest_over_mean']:.3f}")
-    ui.out.print(f"lower bound on the longest shift {s['lower_bound_min'] / 60:.2f} h, "
-                 f"gap {100 * s['gap']:.1f} % (a heuristic plan: the gap is an upper bound on how far "
-                 f"it is from the best possible)")
     if b:
         ui.out.print(f"balancing: longest {b['before_longest_min'] / 60:.2f} h -> {b['after_longest_min'] / 60:.2f} h, "
                      f"{b['moves_kept']} moves and {b['swaps_kept']} swaps kept of {b['trials']} tried, "
                      f"stopped on {b['stop']}")
-    for o in s["over_limit"]:
-        ui.out.print(f"[bold red]over limit:[/] crew {o['crew']} by {o['over_min']:.0f} min "
-                     f"({o['shift_min'] / 60:.2f} h against {o['limit_min'] / 60:.2f} h)")
     if s["over_limit"]:
         ui.out.print(f"an estimated {s['crews_needed_estimate']} crews would fit their shift limits "
                      f"(total shift minutes over the limits; not a plan)")
     ui.out.print(f"plan written to {path} ({seconds:.1f} s)")
-
-
-def _fallback_table(plan: dict) -> Table:
-    t = Table(title="Workload per crew")
-    for col in ("crew", "depot", "segments (count)", "shift (h)", "shift limit used (%)"):
-        t.add_column(col, justify="left" if col in ("crew", "depot") else "right")
-    for c in plan["crews"]:
-        t.add_row(c["id"], str(c["depot_node"]), str(len(c["territory"])), f"{c['shift_min'] / 60:.2f}",
-                  f"{100 * c['shift_min'] / c['shift_limit_min']:.1f}")
-    return t
