@@ -62,9 +62,13 @@ def bench_matching(targets):
     n, u, v, w = perturbed_grid(10, seed=1)  # warm-up: loads PyMatching outside the timing
     min_tjoin(u, v, w, np.flatnonzero(np.bincount(np.r_[u, v], minlength=n) % 2), n)
     for target in targets:
-        side = int(round(np.sqrt(target / 0.29)))  # about 29 % of the grid's nodes end up odd
-        n, u, v, w = perturbed_grid(side, seed=target)
-        odd = np.flatnonzero(np.bincount(np.r_[u, v], minlength=n) % 2)
+        side = int(np.sqrt(target / 0.3))  # roughly 25-30 % of the grid's nodes end up odd
+        while True:  # the smallest grid with at least ``target`` odd nodes
+            n, u, v, w = perturbed_grid(side, seed=target)
+            odd = np.flatnonzero(np.bincount(np.r_[u, v], minlength=n) % 2)
+            if odd.size >= target:
+                break
+            side += 1
         t0 = time.perf_counter()
         r = min_tjoin(u, v, w, odd, n)
         ours = time.perf_counter() - t0
