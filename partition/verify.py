@@ -91,6 +91,15 @@ def _checks(plan: dict, net: Network, profile: Profile):
     if not crews:
         yield Violation("crews", "the plan has no crew")
         return
+    # A rebalanced plan may defer low-priority streets to another day: they need no
+    # service today, and no crew may hold them.
+    deferred = set()
+    for d in plan.get("deferred", []) or []:
+        s = d.get("segment") if isinstance(d, dict) else None
+        if not (isinstance(s, int) and 0 <= s < net.n_segments and need[s]):
+            yield Violation("deferred", f"the defer list names {s!r}, which is not a segment needing service")
+            return
+        deferred.add(s)
     owner = np.full(net.n_segments, -1, np.int64)
     ids = set()
     for ci, crew in enumerate(crews):
@@ -106,10 +115,16 @@ def _checks(plan: dict, net: Network, profile: Profile):
             if not need[s]:
                 yield Violation(f"crew '{cid}'", f"territory holds segment {s}, which needs no service")
                 return
+            if s in deferred:
+                yield Violation(f"segment {s}", f"deferred to another day but in the territory of '{cid}'")
+                return
             if owner[s] >= 0:
                 yield Violation(f"segment {s}", f"in the territories of both '{crews[owner[s]]['id']}' and '{cid}'")
                 return
             owner[s] = ci
+    if deferred:
+        need = need.copy()
+        need[sorted(deferred)] = False
     missing = np.flatnonzero(need & (owner < 0))
     if missing.size:
         yield Violation(f"segment {int(missing[0])}", f"needs service but is in no territory "
@@ -197,7 +212,10 @@ def _checks(plan: dict, net: Network, profile: Profile):
             yield Violation(f"crew '{cid}'", f"shift_min {crew.get('shift_min')} but its routes add up to {shift:.4f}")
             return
         shifts.append(shift)
-    fw, bw, ei = p.forward, p.backward, p.either
+    fw, bw, ei = p.forward.copy(), p.backward.copy(), p.either.copy()
+    if deferred:
+        for arr in (fw, bw, ei):
+            arr[sorted(deferred)] = 0
     bad = np.flatnonzero((served_f < fw) | (served_b < bw) | (served_f + served_b != fw + bw + ei))
     if bad.size:
         s = int(bad[0])

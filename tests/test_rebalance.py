@@ -288,6 +288,15 @@ def test_defer_list_lowest_priority_first(tmp_path, capsys):
     check_plan_independently(today)
     served = {s for c in new["crews"] for s in c["territory"]}
     assert not served & {d["segment"] for d in deferred}
+    # crewcut verify reads the defer list: the deferred streets need no service today
+    code, _, err = _run(capsys, "verify", tmp_path / "new" / "plan.json", town, "--config", cfg)
+    assert code == 0, err
+    # ...and a deferred street that a crew also holds is a violation
+    bad = json.loads(json.dumps(new))
+    bad["deferred"].append({"segment": bad["crews"][0]["territory"][0], "crew": bad["crews"][0]["id"]})
+    (tmp_path / "bad.json").write_text(json.dumps(bad))
+    code, _, err = _run(capsys, "verify", tmp_path / "bad.json", town, "--config", cfg)
+    assert code == 2 and "deferred" in err
 
 
 def test_overtime_report(tmp_path, planned, capsys):
