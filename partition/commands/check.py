@@ -6,19 +6,17 @@ import argparse
 from rich.table import Table
 
 from solve.check import CheckReport, check_network
-from solve.depot import check_depot_node, snap_depot
 from solve.profile import load_profile
 from solve.readers import read_network
+
+from .common import add_network_arguments, depot_from_args
 
 NAME = "check"
 HELP = "load a street network, repair its topology and report what would stop planning"
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("network", metavar="NETWORK",
-                        help="street network: .geojson/.json, .osm, .osm.pbf/.pbf or .csv")
-    parser.add_argument("--config", metavar="FILE",
-                        help="work profile (TOML); default: the shipped curb-sweeping profile")
+    add_network_arguments(parser)
     parser.add_argument("--depot", metavar="LON,LAT",
                         help="check reachability from this depot (default: the first crew's depot in --config)")
 
@@ -27,20 +25,11 @@ def run(args, ui) -> int:
     from ..cli import parse_lonlat
 
     profile = load_profile(args.config)
-    depot_lonlat = parse_lonlat(args.depot) if args.depot else None
+    if args.depot:  # a malformed --depot is reported before any reading
+        parse_lonlat(args.depot)
     net = read_network(args.network, profile)
-    depot, depot_text = None, "none given: each connected piece judged on its own"
-    if depot_lonlat is not None:
-        depot = snap_depot(net, *depot_lonlat, profile.depot_snap_max_m, who="--depot")
-        depot_text = f"node {depot} (from --depot {args.depot})"
-    elif args.config and profile.crews:
-        crew = profile.crews[0]
-        who = f"{profile.source}: depot of crew '{crew.id}'"
-        if crew.depot_lonlat is not None:
-            depot = snap_depot(net, *crew.depot_lonlat, profile.depot_snap_max_m, who=who)
-        else:
-            depot = check_depot_node(net, int(crew.depot_node), who=who)
-        depot_text = f"node {depot} (crew '{crew.id}' in {profile.source})"
+    found = depot_from_args(args, net, profile)
+    depot, depot_text = (found[0], found[1]) if found else (None, "none given: each connected piece judged on its own")
     report = check_network(net, profile, depot)
     _print(ui, args.network, profile.name, depot_text, report)
     return 0 if report.plannable else 2

@@ -5,16 +5,14 @@ import argparse
 import time
 from pathlib import Path
 
+from .common import add_network_arguments, out_folder, stage_progress
 
 NAME = "plan"
 HELP = "split a street network into balanced territories, one per crew, and route every crew"
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("network", metavar="NETWORK",
-                        help="street network: .geojson/.json, .osm, .osm.pbf/.pbf or .csv")
-    parser.add_argument("--config", metavar="FILE",
-                        help="work profile with [[crews]] (TOML); default: the shipped curb-sweeping profile")
+    add_network_arguments(parser, "work profile with [[crews]] (TOML); default: the shipped curb-sweeping profile")
     parser.add_argument("--crews", metavar="K", type=int,
                         help="plan for K identical crews sharing the depot given by --depot")
     parser.add_argument("--depot", metavar="LON,LAT", help="the shared depot of --crews K")
@@ -42,23 +40,11 @@ def run(args, ui) -> int:
 
     profile = load_profile(args.config)
     depot = parse_lonlat(args.depot) if args.depot else None
-    out_dir = Path(args.out)
-    if out_dir.exists() and not out_dir.is_dir():
-        from solve.errors import InputError
-
-        raise InputError(f"--out '{out_dir}' is a file, not a folder", "give a folder for plan.json")
+    out_dir = out_folder(args.out)
     net = read_network(args.network, profile)
     crews = resolve_crews(net, profile, k=args.crews, depot_lonlat=depot, only=args.crew)
     t0 = time.perf_counter()
-    with ui.progress() as bar:
-        tasks: dict[str, int] = {}
-
-        def progress(desc: str, done: float, total: float) -> None:
-            stage = desc.split(":")[0]
-            if stage not in tasks:
-                tasks[stage] = bar.add_task(desc, total=total)
-            bar.update(tasks[stage], completed=done, total=total, description=desc)
-
+    with stage_progress(ui) as progress:
         plan = plan_fleet(net, profile, crews, seed=args.seed, workers=args.workers,
                           time_limit_s=args.time_limit, progress=progress, source=str(args.network))
     seconds = time.perf_counter() - t0

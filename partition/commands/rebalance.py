@@ -14,6 +14,8 @@ import re
 import time
 from pathlib import Path
 
+from .common import out_folder, stage_progress
+
 NAME = "rebalance"
 HELP = "re-plan for the day's changes (absent or extra crews, closed or new streets, shorter shifts), changing little"
 
@@ -57,7 +59,6 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args, ui) -> int:
-    from solve.errors import InputError
     from solve.profile import load_profile
     from solve.readers import read_network
 
@@ -70,9 +71,7 @@ def run(args, ui) -> int:
     plan = read_plan(plan_path)
     raw = plan_path.read_bytes()
     profile = profile_of_plan(plan, load_profile(args.config) if args.config else None)
-    out_dir = _out_dir(plan_path, args.out)
-    if out_dir.exists() and not out_dir.is_dir():
-        raise InputError(f"--out '{out_dir}' is a file, not a folder", "give a folder for plan.json")
+    out_dir = out_folder(_out_dir(plan_path, args.out))
     net_path = _network_path(plan, plan_path, args.network)
     add = [_add_crew(text) for text in args.add_crew]
     limits = dict(_shift_limit(text) for text in args.shift_limit)
@@ -82,15 +81,7 @@ def run(args, ui) -> int:
     if args.open:
         opened = read_network(args.open, profile)
     t0 = time.perf_counter()
-    with ui.progress() as bar:
-        tasks: dict[str, int] = {}
-
-        def progress(desc: str, done: float, total: float) -> None:
-            stage = desc.split(":")[0]
-            if stage not in tasks:
-                tasks[stage] = bar.add_task(desc, total=total)
-            bar.update(tasks[stage], completed=done, total=total, description=desc)
-
+    with stage_progress(ui) as progress:
         new_plan, rep = rebalance_plan(
             plan, net, absent=args.absent, add_crews=add, close=close, opened=opened, shift_limits=limits,
             stability=args.stability, overflow="defer" if args.defer else ("overtime" if args.overtime else None),

@@ -8,23 +8,20 @@ import numpy as np
 from rich.table import Table
 
 from solve.costs import required_passes
-from solve.depot import check_depot_node, snap_depot
 from solve.errors import InputError
 from solve.profile import load_profile
 from solve.readers import read_network
 from solve.route import plan_route
 
 from ..planfile import CrewPlan, build_plan, write_plan
+from .common import add_network_arguments, depot_from_args, out_folder
 
 NAME = "route"
 HELP = "plan one crew's route over the whole network and write it as a plan file"
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("network", metavar="NETWORK",
-                        help="street network: .geojson/.json, .osm, .osm.pbf/.pbf or .csv")
-    parser.add_argument("--config", metavar="FILE",
-                        help="work profile (TOML); default: the shipped curb-sweeping profile")
+    add_network_arguments(parser)
     parser.add_argument("--depot", metavar="LON,LAT",
                         help="where the route starts and ends (default: the first crew's depot in --config); "
                              "write --depot=-30.5,45.2 when the longitude is negative")
@@ -38,22 +35,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def _depot(args, net, profile) -> tuple[int, str, str | None, float | None]:
     """Depot node, a description, and the crew id and shift limit it came from (if any)."""
-    from ..cli import parse_lonlat
-
-    if args.depot:
-        lon, lat = parse_lonlat(args.depot)
-        node = snap_depot(net, lon, lat, profile.depot_snap_max_m, who="--depot")
-        return node, f"node {node} (from --depot {args.depot})", None, None
-    if args.config and profile.crews:
-        crew = profile.crews[0]
-        who = f"{profile.source}: depot of crew '{crew.id}'"
-        if crew.depot_lonlat is not None:
-            node = snap_depot(net, *crew.depot_lonlat, profile.depot_snap_max_m, who=who)
-        else:
-            node = check_depot_node(net, int(crew.depot_node), who=who)
-        return node, f"node {node} (crew '{crew.id}')", crew.id, crew.shift_limit_min
-    raise InputError("no depot: the route needs a place to start and end",
-                     "give --depot LON,LAT, or a --config file with a [[crews]] entry that has a depot")
+    found = depot_from_args(args, net, profile)
+    if found is None:
+        raise InputError("no depot: the route needs a place to start and end",
+                         "give --depot LON,LAT, or a --config file with a [[crews]] entry that has a depot")
+    node, text, crew = found
+    return node, text, (crew.id if crew else None), (crew.shift_limit_min if crew else None)
 
 
 def run(args, ui) -> int:
@@ -63,9 +50,7 @@ def run(args, ui) -> int:
     if args.depot:  # a malformed --depot is reported before any reading
         from ..cli import parse_lonlat
         parse_lonlat(args.depot)
-    out_dir = Path(args.out)
-    if out_dir.exists() and not out_dir.is_dir():
-        raise InputError(f"--out '{out_dir}' is a file, not a folder", "give a folder for plan.json")
+    out_dir = out_folder(args.out)
     net = read_network(args.network, profile)
     depot, depot_text, crew_id, shift = _depot(args, net, profile)
     with ui.progress() as bar:

@@ -1,0 +1,68 @@
+"""Pieces several sub-commands share: the network arguments, the depot, the output folder, progress."""
+from __future__ import annotations
+
+import argparse
+from contextlib import contextmanager
+from pathlib import Path
+
+from solve.depot import check_depot_node, snap_depot
+from solve.errors import InputError
+from solve.network import Network
+from solve.profile import Crew, Profile
+
+NETWORK_HELP = "street network: .geojson/.json, .osm, .osm.pbf/.pbf or .csv"
+CONFIG_HELP = "work profile (TOML); default: the shipped curb-sweeping profile"
+
+
+def add_network_arguments(parser: argparse.ArgumentParser, config_help: str = CONFIG_HELP) -> None:
+    """The NETWORK positional argument and --config, worded the same in every command."""
+    parser.add_argument("network", metavar="NETWORK", help=NETWORK_HELP)
+    parser.add_argument("--config", metavar="FILE", help=config_help)
+
+
+def out_folder(path: str | Path, what: str = "plan.json") -> Path:
+    """An output folder that may not exist yet but must not be a file."""
+    out = Path(path)
+    if out.exists() and not out.is_dir():
+        raise InputError(f"--out '{out}' is a file, not a folder", f"give a folder for {what}")
+    return out
+
+
+def depot_from_args(args, net: Network, profile: Profile) -> tuple[int, str, Crew | None] | None:
+    """The depot from --depot, else the first crew of --config; None when neither gives one.
+
+    Returns the node, a description for the screen, and the crew it came from.
+    """
+    from ..cli import parse_lonlat
+
+    if getattr(args, "depot", None):
+        lon, lat = parse_lonlat(args.depot)
+        node = snap_depot(net, lon, lat, profile.depot_snap_max_m, who="--depot")
+        return node, f"node {node} (from --depot {args.depot})", None
+    if getattr(args, "config", None) and profile.crews:
+        crew = profile.crews[0]
+        who = f"{profile.source}: depot of crew '{crew.id}'"
+        if crew.depot_lonlat is not None:
+            node = snap_depot(net, *crew.depot_lonlat, profile.depot_snap_max_m, who=who)
+        else:
+            node = check_depot_node(net, int(crew.depot_node), who=who)
+        return node, f"node {node} (crew '{crew.id}' in {profile.source})", crew
+    return None
+
+
+@contextmanager
+def stage_progress(ui):
+    """A progress callback ``(description, done, total)`` drawing one bar per stage.
+
+    The stage is the description's text before its first colon.
+    """
+    with ui.progress() as bar:
+        tasks: dict[str, int] = {}
+
+        def progress(desc: str, done: float, total: float) -> None:
+            stage = desc.split(":")[0]
+            if stage not in tasks:
+                tasks[stage] = bar.add_task(desc, total=total)
+            bar.update(tasks[stage], completed=done, total=total, description=desc)
+
+        yield progress
