@@ -134,15 +134,87 @@ def check_plan_independently(plan: dict, whole_segments: bool = True) -> None:
             assert (sid in owner) == (f + b + e > 0), sid
 
 
+def _azimuth(p, q) -> float:
+    """Compass bearing from lon/lat p to q, degrees (pyproj's geodesic, not solve.network)."""
+    from pyproj import Geod
+
+    az, _, _ = Geod(ellps="WGS84").inv(p[0], p[1], q[0], q[1])
+    return az % 360.0
+
+
+def nx_turn_terms(plan: dict) -> dict:
+    """Least turn minutes after arriving along each (segment, forward) at its end node.
+
+    Written again from the plan file: bearings from pyproj's geodesic azimuths of
+    the stored coordinates; turn kinds from the trade's reading of a heading change
+    (straight up to 30 degrees either way, U-turn from 150 degrees or back along
+    the same street, otherwise a turn with or across traffic by the side of the
+    road vehicles keep to: from memory). Within 1 degree of a threshold both
+    readings are allowed and the cheaper counts, so that rounding of the stored
+    coordinates can only lower this bound. Departures: every legal direction of
+    every open segment at the node.
+    """
+    segs = plan["network"]["segments"]
+    prof = plan["settings"]["profile"]
+    ignore = prof["ignore_oneway"]
+    right_hand = prof["traffic"] != "left"
+    pen = {"straight": 0.0, "with_traffic": 0.0, "across_traffic": 0.0, "u_turn": 0.0}
+    pen.update({k: float(v) for k, v in prof["turn_penalty_s"].items()})
+    heading = {}  # (seg, forward) -> (heading leaving, heading arriving)
+    leaving: dict[int, list] = {}
+    for s in segs:
+        if s["closed"]:
+            continue
+        c = s["coords"]
+        if c is not None:
+            start, end = _azimuth(c[0], c[1]), _azimuth(c[-2], c[-1])
+            heading[s["id"], True] = (start, end)
+            heading[s["id"], False] = ((end + 180.0) % 360.0, (start + 180.0) % 360.0)
+        leaving.setdefault(s["from"], []).append((s["id"], True))
+        if ignore or not s["oneway"]:
+            leaving.setdefault(s["to"], []).append((s["id"], False))
+
+    def least(arr, dep) -> float:
+        if arr[0] == dep[0] and arr[1] != dep[1]:
+            return pen["u_turn"]
+        if arr not in heading or dep not in heading:
+            return 0.0  # no geometry: the kind is unknown and costs nothing
+        d = (heading[dep][0] - heading[arr][1] + 540.0) % 360.0 - 180.0
+        kinds = set()
+        for x in (d - 1.0, d, d + 1.0):
+            x = (x + 540.0) % 360.0 - 180.0
+            mag = abs(x)
+            if mag >= 150.0:
+                kinds.add("u_turn")
+            elif mag <= 30.0:
+                kinds.add("straight")
+            else:
+                kinds.add("with_traffic" if (x > 0) == right_hand else "across_traffic")
+        return min(pen[k] for k in kinds)
+
+    out = {}
+    for s in segs:
+        if s["closed"]:
+            continue
+        for fwd in (True, False):
+            node = s["to"] if fwd else s["from"]
+            deps = leaving.get(node, [])
+            out[s["id"], fwd] = min((least((s["id"], fwd), d) for d in deps), default=0.0) / 60.0
+    return out
+
+
 def nx_lower_bound(plan: dict) -> float:
     """A lower bound on the longest shift of any plan, recomputed with networkx.
 
-    max(total service minutes / k, the longest "depot -> serve one pass -> depot"
-    round trip from the best depot) -- the min-max bound of Ahr and Reinelt (2006),
-    "Lower bounds for the min-max k-Chinese postman problem" (from memory), with the
-    total single-crew cost weakened to its service part, which any plan must
-    spend. Shortest paths: networkx's Dijkstra over legal directions at deadhead
-    minutes.
+    max(total / k, the longest "depot -> serve one pass -> depot" round trip from
+    the best depot) -- the min-max bound of Ahr and Reinelt (2006), "Lower bounds
+    for the min-max k-Chinese postman problem" (from memory), with the total
+    single-crew cost weakened to its service part plus the turns forced after
+    service arrivals (:func:`nx_turn_terms`; every served arrival but the k routes'
+    last ones is followed by a departure, so the sum less the k largest terms),
+    which any plan must spend. A round trip adds the forced turn after the
+    served arrival unless it ends at that depot. Shortest paths: networkx's
+    Dijkstra over legal directions at deadhead minutes.
     """
     segs = plan["network"]["segments"]
     ignore = plan["settings"]["profile"]["ignore_oneway"]
@@ -156,19 +228,24 @@ def nx_lower_bound(plan: dict) -> float:
     depots = sorted({c["depot_node"] for c in plan["crews"]})
     out = {d: nx.single_source_dijkstra_path_length(g, d, weight="w") for d in depots}
     back = {d: nx.single_source_dijkstra_path_length(g.reverse(copy=False), d, weight="w") for d in depots}
+    turn = nx_turn_terms(plan)
+    k = len(plan["crews"])
     service = 0.0
     trip = 0.0
+    per_pass = []
     for s in segs:
         f, b, e = passes_needed(s, ignore)
         if f + b + e == 0:
             continue
         service += (f + b + e) * s["service_min"]
+        tf, tb = turn[s["id"], True], turn[s["id"], False]
+        per_pass += [tf] * f + [tb] * b + [min(tf, tb)] * e
         u, v = s["from"], s["to"]
         inf = math.inf
         best = inf
         for d in depots:
-            fw = out[d].get(u, inf) + s["service_min"] + back[d].get(v, inf)
-            bw = out[d].get(v, inf) + s["service_min"] + back[d].get(u, inf)
+            fw = out[d].get(u, inf) + s["service_min"] + back[d].get(v, inf) + (tf if v != d else 0.0)
+            bw = out[d].get(v, inf) + s["service_min"] + back[d].get(u, inf) + (tb if u != d else 0.0)
             worst = 0.0
             if f:
                 worst = max(worst, fw)
@@ -178,7 +255,9 @@ def nx_lower_bound(plan: dict) -> float:
                 worst = max(worst, min(fw, bw))
             best = min(best, worst)
         trip = max(trip, best)
-    return max(service / len(plan["crews"]), trip)
+    per_pass.sort()
+    turns = sum(per_pass[:max(0, len(per_pass) - k)])
+    return max((service + turns) / k, trip)
 
 
 def write_geojson(path, lines: list[RawLine]) -> None:

@@ -14,8 +14,9 @@ from __future__ import annotations
 
 import networkx as nx
 import numpy as np
+import pytest
 
-from partition.planfile import CrewPlan, build_plan
+from partition.planfile import CrewPlan, build_plan, write_plan
 from solve.costs import deadhead_minutes, service_minutes
 from solve.geodesy import geodesic_lengths, project
 from solve.network import SERVICE_NONE, SERVICE_ONE_PASS, Network, _bearing
@@ -152,3 +153,14 @@ def make_plan(k: int = 3, cols: int = 6, rows: int = 4, traffic: str = "right") 
     lb = service_total / k
     summary = {"lower_bound_min": lb, "gap": max(shifts) / lb - 1.0, "longest_shift_min": max(shifts)}
     return build_plan(net, profile, crews, source="tallowmere-grid (tests)", summary=summary)
+
+
+# Fixtures shared by the report tests (imported there by name).
+@pytest.fixture(scope="module")
+def plan():
+    return make_plan(k=3)
+
+
+@pytest.fixture()
+def plan_path(tmp_path, plan):
+    return str(write_plan(plan, tmp_path / "plan.json"))

@@ -19,11 +19,6 @@ from planfactory import make_plan
 GEOD = Geod(ellps="WGS84")
 
 
-
-@pytest.fixture(autouse=True)
-def _wide_console(monkeypatch):
-    monkeypatch.setenv("COLUMNS", "400")  # rich wraps messages at 80 columns when not on a terminal
-
 @pytest.fixture(scope="module", params=["test-factory", "crewcut-plan"])
 def plan(request, tmp_path_factory):
     """A hand-made plan, and a plan made by the project's own planner on a small generated town."""

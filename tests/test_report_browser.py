@@ -17,11 +17,6 @@ from planfactory import make_plan
 BROWSERS = ("chromium", "chromium-browser")  # Debian's package installs /usr/bin/chromium
 
 
-
-@pytest.fixture(autouse=True)
-def _wide_console(monkeypatch):
-    monkeypatch.setenv("COLUMNS", "400")  # rich wraps messages at 80 columns when not on a terminal
-
 @pytest.fixture(scope="module")
 def report(tmp_path_factory):
     d = tmp_path_factory.mktemp("report")

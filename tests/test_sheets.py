@@ -7,25 +7,9 @@ import pytest
 from pyproj import Geod
 
 from partition.cli import main
-from partition.planfile import write_plan
 from partition.planview import view
 from partition.sheets import COMPASS, compass, crew_sheets, initial_bearing, route_sheet, turn_words
-from planfactory import make_plan
-
-
-
-@pytest.fixture(autouse=True)
-def _wide_console(monkeypatch):
-    monkeypatch.setenv("COLUMNS", "400")  # rich wraps messages at 80 columns when not on a terminal
-
-@pytest.fixture(scope="module")
-def plan():
-    return make_plan(k=3)
-
-
-@pytest.fixture()
-def plan_path(tmp_path, plan):
-    return str(write_plan(plan, tmp_path / "plan.json"))
+from planfactory import make_plan, plan, plan_path  # noqa: F401 (shared fixtures)
 
 
 def _sheets(plan):

@@ -9,28 +9,12 @@ import numpy as np
 import pytest
 
 from partition.cli import main
-from partition.planfile import write_plan
 from partition.planview import view
 from partition.svgmap import BACKGROUND, DEADHEAD, INK, PALETTE, route_svg, territory_svg
-from planfactory import make_plan
+from planfactory import plan, plan_path  # noqa: F401 (shared fixtures)
 from solve.errors import InputError
 
 SVG = "{http://www.w3.org/2000/svg}"
-
-
-
-@pytest.fixture(autouse=True)
-def _wide_console(monkeypatch):
-    monkeypatch.setenv("COLUMNS", "400")  # rich wraps messages at 80 columns when not on a terminal
-
-@pytest.fixture(scope="module")
-def plan():
-    return make_plan(k=3)
-
-
-@pytest.fixture()
-def plan_path(tmp_path, plan):
-    return str(write_plan(plan, tmp_path / "plan.json"))
 
 
 # --- colour-blind safety of the palette -------------------------------------------------

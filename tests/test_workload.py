@@ -11,24 +11,8 @@ from pyproj import Geod
 from rich.console import Console
 
 from partition.cli import main
-from partition.planfile import write_plan
 from partition.workload import COLUMNS, workload_rows, workload_summary, workload_table
-from planfactory import make_plan
-
-
-
-@pytest.fixture(autouse=True)
-def _wide_console(monkeypatch):
-    monkeypatch.setenv("COLUMNS", "400")  # rich wraps messages at 80 columns when not on a terminal
-
-@pytest.fixture(scope="module")
-def plan():
-    return make_plan(k=3)
-
-
-@pytest.fixture()
-def plan_path(tmp_path, plan):
-    return str(write_plan(plan, tmp_path / "plan.json"))
+from planfactory import plan, plan_path  # noqa: F401 (shared fixtures)
 
 
 def test_rows_follow_the_traversals(plan):
