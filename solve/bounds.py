@@ -4,11 +4,25 @@ One crew
 --------
 Every route serves every pass once (service minutes are fixed) and adds deadhead
 traversals that make the served passes a balanced multigraph. So service minutes
-plus any lower bound on that augmentation is a lower bound on the route
-(turn penalties excluded): :func:`single_crew_lower_bound` uses
+plus any lower bound on that augmentation is a lower bound on the route's
+driving minutes: :func:`single_crew_lower_bound` uses
 :func:`solve.eulerize.augmentation_lower_bound` (exact in the undirected and
 directed cases, the larger of the T-join and flow relaxations in the mixed case;
-all of them ignore connectivity, which can only make a route longer).
+all of them ignore connectivity, which can only make a route longer), and adds
+the turn bound below.
+
+Turns
+-----
+:func:`turn_lower_bound`. Every service traversal arriving at a node ``v`` is
+followed by a departure from ``v`` along some legal driving direction, unless
+it is the last traversal of its route; that departure's turn is charged to this
+arrival alone (distinct arrivals have distinct successors), so it costs at
+least ``T`` = the cheapest turn penalty from this arrival into any legal
+departure at ``v`` (a dead end forces a U-turn; the stem of a T forces a turn).
+A pass that may be served either way counts its cheaper orientation, turns
+after deadhead arrivals count zero (penalties are >= 0), and each of the ``k``
+routes has one last arrival, so ``sum(T) - (the k largest T)`` is a lower bound
+on the turn minutes of any ``k`` routes that together serve every pass once.
 
 k crews (min-max)
 -----------------
@@ -20,11 +34,14 @@ k crews (min-max)
   bound uses service minutes plus the augmentation bound *without*
   connectivity (the single-crew route cost with its connection would not be
   valid). The longest of k routes is at least their mean, ``total / k``.
+  The turn bound for ``k`` routes is part of ``total``.
 * ``longest round trip``: every pass is served by some crew whose route leaves
   its depot, reaches the pass, serves it and returns; so the longest route is at
   least, for the pass where this is largest, the cheapest over depots (and, for
   an undirected pass, over its two directions) of depot -> tail + service +
-  head -> depot (shortest deadhead paths, legal directions only).
+  head -> depot (shortest deadhead paths, legal directions only), plus the
+  pass's least turn ``T`` on leaving its head unless the head is that depot
+  (where the route may end).
 
 References
 ----------
@@ -68,11 +85,83 @@ def single_crew_lower_bound(net: Network, profile: Profile, segments=None) -> fl
     if len(tasks) == 0:
         return 0.0
     arcs = build_deadhead(net, profile)
-    return float(tasks.minutes.sum()) + augmentation_lower_bound(tasks, arcs, net.n_nodes)
+    return (float(tasks.minutes.sum()) + augmentation_lower_bound(tasks, arcs, net.n_nodes)
+            + _turn_sum(_turn_terms(net, profile, tasks, arcs).min(axis=0), 1))
 
 
-def _round_trips(net, tasks, arcs, depots: list[int]) -> np.ndarray:
-    """Per task: the cheapest depot -> serve it -> same depot round trip (minutes)."""
+def _turn_terms(net: Network, profile: Profile, tasks, arcs) -> np.ndarray:
+    """Least turn minutes after each task's arrival, shape (2, t).
+
+    Row 0: the task driven tail -> head; row 1: head -> tail (``inf`` for a
+    directed task, which may not be driven that way).
+    """
+    from .turns import TurnModel
+
+    t = len(tasks)
+    out = np.full((2, t), np.inf)
+    if t == 0:
+        return out
+    model = TurnModel.from_network(net, profile)
+    if np.min(model.penalty_s) < 0:  # the proof needs penalties >= 0: no turn bound then
+        out[0] = 0.0
+        out[1] = np.where(tasks.directed, np.inf, 0.0)
+        return out
+    n = net.n_nodes
+    # legal departures grouped by their start node (CSR)
+    by_tail = np.argsort(arcs.tail, kind="stable")
+    ptr = np.searchsorted(arcs.tail[by_tail], np.arange(n + 1))
+    d_seg, d_fwd = arcs.seg[by_tail], arcs.forward[by_tail]
+    und = np.flatnonzero(~tasks.directed)
+    a_task = np.concatenate([np.arange(t), und])
+    a_row = np.concatenate([np.zeros(t, np.int64), np.ones(und.size, np.int64)])
+    a_seg = tasks.seg[a_task]
+    a_node = np.where(a_row == 0, tasks.head[a_task], tasks.tail[a_task])
+    a_from = np.where(a_row == 0, tasks.tail[a_task], tasks.head[a_task])
+    # u -> v (a loop street counts as forward, as in solve.route)
+    a_fwd = (a_from == net.seg_u[a_seg]) & (a_node == net.seg_v[a_seg])
+    cnt = ptr[a_node + 1] - ptr[a_node]
+    has = cnt > 0
+    best = np.zeros(a_task.size)  # a node with no way on: only a route's end (costs nothing)
+    if has.any():
+        idx = np.flatnonzero(has)
+        c = cnt[idx]
+        start = np.concatenate([[0], np.cumsum(c)[:-1]])
+        rep = np.repeat(idx, c)
+        j = np.arange(int(c.sum())) - np.repeat(start, c) + np.repeat(ptr[a_node[idx]], c)
+        sec = model.pair_seconds(a_seg[rep], a_fwd[rep], d_seg[j], d_fwd[j])
+        best[idx] = np.minimum.reduceat(sec, start) / 60.0
+    out[a_row, a_task] = best
+    return out
+
+
+def _turn_sum(per_task: np.ndarray, k: int) -> float:
+    """Sum of the per-task turn minutes less the ``k`` largest (the routes' last arrivals)."""
+    if per_task.size <= k:
+        return 0.0
+    x = np.sort(per_task)
+    return float(max(0.0, x[:x.size - k].sum()))
+
+
+def turn_lower_bound(net: Network, profile: Profile, k: int = 1, segments=None) -> float:
+    """Turn minutes that any ``k`` routes serving the passes of ``segments`` must spend.
+
+    See the module notes (Turns) for the proof. ``segments``: ids or mask,
+    ``None`` for all; ``k``: number of routes (each has one last arrival).
+    """
+    if isinstance(k, bool) or not isinstance(k, (numbers.Integral, np.integer)) or k < 1:
+        raise InputError(f"number of routes k must be a whole number 1 or more, got {k!r}")
+    tasks = build_tasks(net, profile, segments)
+    if len(tasks) == 0:
+        return 0.0
+    return _turn_sum(_turn_terms(net, profile, tasks, build_deadhead(net, profile)).min(axis=0), int(k))
+
+
+def _round_trips(net, tasks, arcs, depots: list[int], turn: np.ndarray | None = None) -> np.ndarray:
+    """Per task: the cheapest depot -> serve it -> same depot round trip (minutes).
+
+    ``turn``: the (2, t) least turns after each orientation's arrival
+    (:func:`_turn_terms`), added unless the arrival is at that depot.
+    """
     n = net.n_nodes
     # cheapest arc per ordered node pair (csr would add up parallels)
     key = arcs.tail * n + arcs.head
@@ -86,12 +175,16 @@ def _round_trips(net, tasks, arcs, depots: list[int]) -> np.ndarray:
     back_d = dijkstra(g.T.tocsr(), directed=True, indices=depots)  # node -> depot
     fwd = out_d[:, tasks.tail] + back_d[:, tasks.head]
     rev = out_d[:, tasks.head] + back_d[:, tasks.tail]
+    if turn is not None:
+        dep = np.asarray(depots, np.int64)[:, None]
+        fwd = fwd + np.where(tasks.head[None, :] == dep, 0.0, turn[0][None, :])
+        rev = rev + np.where(tasks.tail[None, :] == dep, 0.0, np.where(np.isfinite(turn[1]), turn[1], 0.0)[None, :])
     dh = np.where(tasks.directed[None, :], fwd, np.minimum(fwd, rev))
     return dh.min(axis=0) + tasks.minutes
 
 
 def fleet_lower_bound(net: Network, profile: Profile, depots: list[int], k: int, segments=None) -> float:
-    """Minutes that the longest of ``k`` crews' routes must at least take (turns excluded).
+    """Minutes that the longest of ``k`` crews' routes must at least take (turns included).
 
     Parameters
     ----------
@@ -107,12 +200,14 @@ def fleet_lower_bound(net: Network, profile: Profile, depots: list[int], k: int,
     if len(tasks) == 0:
         return 0.0
     arcs = build_deadhead(net, profile)
-    rt = _round_trips(net, tasks, arcs, ds)
+    turn = _turn_terms(net, profile, tasks, arcs)
+    rt = _round_trips(net, tasks, arcs, ds, turn)
     if not np.all(np.isfinite(rt)):
         bad = np.unique(tasks.seg[~np.isfinite(rt)])
         names = ", ".join(f"segment {int(s)} ('{net.seg_source[int(s)]}')" for s in bad[:8])
         raise InputError(f"{bad.size} required segment(s) cannot be reached from any depot and driven back: "
                          f"{names}", "check one-way directions and closed segments near them, "
                          "or leave these segments out")
-    total = float(tasks.minutes.sum()) + augmentation_lower_bound(tasks, arcs, net.n_nodes)
+    total = (float(tasks.minutes.sum()) + augmentation_lower_bound(tasks, arcs, net.n_nodes)
+             + _turn_sum(turn.min(axis=0), int(k)))
     return float(max(total / int(k), float(rt.max())))

@@ -73,7 +73,8 @@ class Route:
     """A closed walk from ``depot`` serving every required pass it was given.
 
     ``lower_bound_min``: a proven lower bound on the total minutes of any route
-    serving the same passes from the same depot (turns excluded);
+    serving the same passes from the same depot (service, deadhead and the
+    turns every served arrival forces, see :func:`solve.bounds.turn_lower_bound`);
     ``gap = total_min / lower_bound_min - 1``.
     """
 

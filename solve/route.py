@@ -19,8 +19,9 @@ Method
    mixed case; it also connects a depot that lies away from the tasks).
 3. An Euler circuit from the depot, turn-aware by default: :mod:`solve.circuit`.
 
-The route's ``lower_bound_min`` bounds service plus deadhead minutes (turns
-excluded); ``exact`` says the deadhead part is proven least, never the turns.
+The route's ``lower_bound_min`` bounds its total minutes: service, deadhead and
+the least turns every served arrival forces (:func:`solve.bounds.turn_lower_bound`);
+``exact`` says the deadhead part is proven least, never the turns.
 """
 from __future__ import annotations
 
@@ -86,10 +87,11 @@ def _check_params(time_limit_s, seed) -> None:
 def _lower_bound(net, profile, depot, segments, service_min: float, aug) -> float:
     lb = service_min + float(aug.lower_bound)
     try:
-        from .bounds import fleet_lower_bound
+        from .bounds import fleet_lower_bound, turn_lower_bound
     except ImportError:  # bounds not available: the augmentation's bound stands
         return lb
     seg_list = None if segments is None else segments.tolist()
+    lb += float(turn_lower_bound(net, profile, 1, seg_list))
     return max(lb, float(fleet_lower_bound(net, profile, [depot], 1, seg_list)))
 
 
