@@ -17,8 +17,12 @@ piece is closed by a shortest path from the depot to its first node and from its
 last node back. (Recalled from memory: the paper states it for symmetric costs
 with ``c_max`` the largest depot distance; with one-way streets we use the half
 round trip.) Deadhead traversals at either end of a piece are dropped before
-closing it, since the shortest paths replace them. Turn penalties on the closing
-paths are not counted, which can only flatter the baseline.
+closing it, since the shortest paths replace them.
+
+Every piece is charged exactly as the planner's routes are: service and deadhead
+minutes of every traversal, and the turn penalty (:mod:`solve.turns`) of every
+turn along the closed walk, the closing paths and the joins included (the first
+traversal out of the depot is a start and costs nothing, as in every route).
 
 This is used as a reference by the benchmark and the tests, not by the planner.
 """
@@ -30,7 +34,8 @@ from scipy.sparse import csgraph
 from solve.costs import deadhead_minutes
 from solve.network import Network
 from solve.profile import Profile
-from solve.result import Route, RouteTotals, Traversal
+from solve.result import TURNS, Route, RouteTotals, Traversal
+from solve.turns import START, TurnModel
 
 from .streets import driving_graph
 
@@ -62,6 +67,7 @@ def route_first_split(net: Network, profile: Profile, depot: int, k: int, *, gia
         cuts.append(max(p, cuts[-1]))
     cuts.append(len(tr) - 1)
     arcs = _cheapest_arcs(net, profile)
+    model = TurnModel.from_network(net, profile)
     routes = []
     for j in range(k):
         piece = tr[cuts[j] + 1: cuts[j + 1] + 1]
@@ -74,16 +80,23 @@ def route_first_split(net: Network, profile: Profile, depot: int, k: int, *, gia
             continue
         head = _path(arcs, p_out, depot, piece[0].from_node, reverse=False)
         tail = _path(arcs, p_back, depot, piece[-1].to_node, reverse=True)
-        first = piece[0]
-        piece[0] = Traversal(first.segment, first.from_node, first.to_node, first.service, first.metres,
-                             first.minutes, "start" if not head else first.turn, 0.0 if not head else first.turn_minutes)
-        if head:
-            h0 = head[0]
-            head[0] = Traversal(h0.segment, h0.from_node, h0.to_node, False, h0.metres, h0.minutes, "start", 0.0)
-        walk = tuple(head + piece + tail)
+        walk = _with_turns(head + piece + tail, net, model)
         routes.append(Route(depot, walk, RouteTotals.of(walk), "route-first split (Frederickson, Hecht and Kim 1978)",
                             False, 0.0))
     return routes
+
+
+def _with_turns(walk: list[Traversal], net: Network, model: TurnModel) -> tuple[Traversal, ...]:
+    """The walk with every turn classified and charged again (the first is the start)."""
+    seg = np.array([t.segment for t in walk], np.int64)
+    fwd = np.array([(t.from_node, t.to_node) == (int(net.seg_u[t.segment]), int(net.seg_v[t.segment]))
+                    for t in walk], bool)
+    code = np.full(seg.size, START, np.int64)
+    if seg.size > 1:
+        code[1:] = model.classify(seg[:-1], fwd[:-1], seg[1:], fwd[1:])
+    minutes = model.seconds(code) / 60.0
+    return tuple(Traversal(t.segment, t.from_node, t.to_node, t.service, t.metres, t.minutes, TURNS[int(c)], float(m))
+                 for t, c, m in zip(walk, code.tolist(), minutes.tolist()))
 
 
 def _cheapest_arcs(net: Network, profile: Profile) -> dict[tuple[int, int], tuple[int, float, float]]:

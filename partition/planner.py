@@ -12,7 +12,8 @@ lower bound on the longest shift and the gap to it, never a claim of optimality.
 Method (cluster first, route second, then local search)
 ------
 1. :mod:`partition.seeding`: weighted k-means seeds, anchored at the depots;
-2. :mod:`partition.territories`: connected territories grown by estimated work;
+2. :mod:`partition.territories`: connected territories grown by estimated work,
+   then border runs moved where that cuts the turns a border forces;
 3. :mod:`partition.routing`: one rural postman route per territory
    (:func:`solve.route.plan_route`), in parallel;
 4. :mod:`partition.balance`: boundary moves and swaps re-routed exactly;
@@ -29,6 +30,7 @@ import numpy as np
 from solve.errors import InputError
 from solve.network import Network
 from solve.profile import Profile
+from solve.turns import TurnModel
 
 from .balance import BalanceReport, FleetState, balance
 from .crews import FleetCrew
@@ -36,13 +38,13 @@ from .planfile import CrewPlan, build_plan
 from .routing import LocalRouter, RouteJob, Router
 from .seeding import seed_territories
 from .streets import build_street_graph, depot_travel, round_trips
-from .territories import _describe, grow_territories, smooth_boundaries, territories_of
+from .territories import _describe, grow_territories, polish_borders, smooth_boundaries, territories_of
 
 ProgressFn = Callable[[str, float, float], None]
 
 
 def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: int = 0,
-               workers: int | None = None, time_limit_s: float = 30.0, tolerance: float = 0.01,
+               workers: int | None = None, time_limit_s: float = 30.0, tolerance: float = 0.003,
                max_iterations: int = 500, route_time_limit_s: float = 10.0,
                progress: ProgressFn | None = None, router: Router | None = None,
                source: str = "") -> dict:
@@ -82,19 +84,15 @@ def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: 
     approach = np.array([rt[c, s] - sg.service_min[s] if s >= 0 else 0.0 for c, s in enumerate(seeds)])
     owner = grow_territories(net, sg, centres, seeds, eligible, approach)
     smooth_boundaries(net, sg, owner, eligible)
+    polish_borders(net, sg, owner, eligible, TurnModel.from_network(net, profile))
     report("territories", 1, 1)
     own_router = router is None
     if own_router:
         router = LocalRouter(net, profile, workers=workers, time_limit_s=route_time_limit_s)
+    limits = np.array([c.shift_limit_min for c in crews], float)
     try:
-        terr = territories_of(owner, k)
-        report("routing territories", 0, k)
-        routes = router.route_many([RouteJob.of(depots[c], terr[c], seed) for c in range(k)])
-        report("routing territories", k, k)
-        limits = np.array([c.shift_limit_min for c in crews], float)
-        state = FleetState(owner=owner, routes=list(routes), depots=depots, limits=limits)
-        bal = balance(state, sg, router, eligible, seed=seed, tolerance=tolerance,
-                      max_iterations=max_iterations, time_limit_s=time_limit_s, progress=progress)
+        state, bal = _route_and_balance(owner, router, sg, eligible, depots, limits, seed, tolerance,
+                                        max_iterations, time_limit_s, progress, report)
     finally:
         if own_router:
             router.close()
@@ -113,6 +111,19 @@ def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: 
                             "time_limit_s": float(time_limit_s)},
                 "route_time_limit_s": float(route_time_limit_s)}
     return build_plan(net, profile, plans, source=source, settings=settings, summary=summary)
+
+
+def _route_and_balance(owner, router, sg, eligible, depots, limits, seed, tolerance, max_iterations,
+                       time_limit_s, progress, report):
+    k = len(depots)
+    terr = territories_of(owner, k)
+    report("routing territories", 0, k)
+    routes = router.route_many([RouteJob.of(depots[c], terr[c], seed) for c in range(k)])
+    report("routing territories", k, k)
+    state = FleetState(owner=owner, routes=list(routes), depots=list(depots), limits=limits)
+    bal = balance(state, sg, router, eligible, seed=seed, tolerance=tolerance,
+                  max_iterations=max_iterations, time_limit_s=time_limit_s, progress=progress)
+    return state, bal
 
 
 def fleet_summary(plans: list[CrewPlan], lower_bound_min: float, bal: BalanceReport | None = None) -> dict:

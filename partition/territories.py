@@ -227,3 +227,175 @@ def smooth_boundaries(net: Network, sg: StreetGraph, owner: np.ndarray, eligible
         if not changed:
             break
     return moved
+
+
+class BorderTurns:
+    """Estimated turn minutes a territory's own passes force at each node.
+
+    At a node ``x`` a crew pairs each of its arrivals with one of its departures;
+    the least total penalty of such a pairing among the passes of territory ``c``
+    alone (a small assignment problem, :func:`scipy.optimize.linear_sum_assignment`)
+    is the estimate ``cost(c, x)``. Where the whole node belongs to one crew this
+    is what its route can reach; where a border splits the node, each side pays
+    for the turns it is forced into (a stub forces a U-turn, an L a turn). It is
+    an estimate for choosing borders, not a bound (deadhead departures are left
+    out, and passes that may be served either way are not counted).
+    """
+
+    def __init__(self, net: Network, sg: StreetGraph, model) -> None:
+        p = sg.passes
+        seg = np.concatenate([np.repeat(np.arange(p.forward.size), p.forward),
+                              np.repeat(np.arange(p.backward.size), p.backward)]).astype(np.int64)
+        fwd = np.concatenate([np.ones(int(p.forward.sum()), bool), np.zeros(int(p.backward.sum()), bool)])
+        tail = np.where(fwd, net.seg_u[seg], net.seg_v[seg])
+        head = np.where(fwd, net.seg_v[seg], net.seg_u[seg])
+        n = net.n_nodes
+        a_ord = np.argsort(head, kind="stable")
+        d_ord = np.argsort(tail, kind="stable")
+        a_ptr = np.searchsorted(head[a_ord], np.arange(n + 1))
+        d_ptr = np.searchsorted(tail[d_ord], np.arange(n + 1))
+        na, nd = np.diff(a_ptr), np.diff(d_ptr)
+        # every (arrival, departure) pair at every node, one classify call
+        k = na * nd
+        node = np.repeat(np.arange(n), k)
+        off = np.concatenate([[0], np.cumsum(k)])
+        r = np.arange(int(k.sum())) - off[node]
+        ai = a_ord[a_ptr[node] + r // np.maximum(nd[node], 1)]
+        di = d_ord[d_ptr[node] + r % np.maximum(nd[node], 1)]
+        sec = model.pair_seconds(seg[ai], fwd[ai], seg[di], fwd[di]) / 60.0
+        self.arr_seg = {}
+        self.dep_seg = {}
+        self.cost = {}
+        for x in np.flatnonzero(k > 0).tolist():
+            self.arr_seg[x] = seg[a_ord[a_ptr[x]:a_ptr[x + 1]]]
+            self.dep_seg[x] = seg[d_ord[d_ptr[x]:d_ptr[x + 1]]]
+            self.cost[x] = sec[off[x]:off[x + 1]].reshape(na[x], nd[x])
+
+    def at(self, owner: np.ndarray, c: int, x: int) -> float:
+        """Estimated forced turn minutes of territory ``c`` at node ``x``."""
+        from scipy.optimize import linear_sum_assignment
+
+        m = self.cost.get(x)
+        if m is None:
+            return 0.0
+        ra = owner[self.arr_seg[x]] == c
+        cd = owner[self.dep_seg[x]] == c
+        if not ra.any() or not cd.any():
+            return 0.0
+        sub = m[np.ix_(ra, cd)]
+        if sub.size == 1:
+            return float(sub[0, 0])
+        i, j = linear_sum_assignment(sub)
+        return float(sub[i, j].sum())
+
+
+def street_runs(net: Network, sg: StreetGraph) -> list[list[int]]:
+    """Required segments chained through nodes where exactly two required segments meet.
+
+    A run ends at intersections (three or more required segments), dead ends and
+    nodes where the required streets stop. Moving a whole run between
+    territories never leaves a stub in the middle of a street.
+    """
+    req = np.flatnonzero(sg.required)
+    u, v = net.seg_u[req], net.seg_v[req]
+    ends = np.concatenate([u, v])
+    deg = np.bincount(ends, minlength=net.n_nodes)
+    parent = {int(s): int(s) for s in req.tolist()}
+
+    def find(x: int) -> int:
+        while parent[x] != x:
+            parent[x] = parent[parent[x]]
+            x = parent[x]
+        return x
+
+    segs_at: dict[int, list[int]] = {}
+    for s, a, b in zip(req.tolist(), u.tolist(), v.tolist()):
+        segs_at.setdefault(a, []).append(s)
+        if b != a:
+            segs_at.setdefault(b, []).append(s)
+    for x, ss in segs_at.items():
+        if deg[x] == 2 and len(ss) == 2:
+            ra, rb = find(ss[0]), find(ss[1])
+            if ra != rb:
+                parent[max(ra, rb)] = min(ra, rb)
+    runs: dict[int, list[int]] = {}
+    for s in req.tolist():
+        runs.setdefault(find(s), []).append(s)
+    return [sorted(r) for _, r in sorted(runs.items())]
+
+
+def polish_borders(net: Network, sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, model,
+                   rounds: int = 6, slack: float = 0.01) -> int:
+    """Move street runs across borders where that cuts the turns borders force; returns moves made.
+
+    A run's part held by territory A (see :func:`street_runs`) moves to a
+    territory B holding another required segment at one of its nodes when the
+    :class:`BorderTurns` estimate of A and B at the nodes it touches goes down;
+    A must stay connected (B does: the part joins it at that node), B must be
+    able to serve every segment of it, and the larger of the two estimated
+    loads (work with the deadhead allowance, plus the border turns) may grow by
+    at most ``slack`` of the mean load; the balancer evens out the rest. Runs
+    are visited in order of their lowest segment id: deterministic.
+    """
+    bt = BorderTurns(net, sg, model)
+    u, v = net.seg_u, net.seg_v
+    k = int(eligible.shape[0])
+    est = sg.work * (1.0 + DEADHEAD_ALLOWANCE)
+    req = np.flatnonzero(sg.required)
+    load = np.bincount(owner[req], weights=est[req], minlength=k).astype(float)
+    segs_at: dict[int, list[int]] = {}
+    for s in req.tolist():
+        for x in {int(u[s]), int(v[s])}:
+            segs_at.setdefault(x, []).append(s)
+    runs = street_runs(net, sg)
+    mean = float(load.sum()) / max(k, 1)
+    moved = 0
+    for _ in range(rounds):
+        changed = 0
+        for run in runs:
+            by_owner: dict[int, list[int]] = {}
+            for s in run:
+                by_owner.setdefault(int(owner[s]), []).append(s)
+            for a, part in sorted(by_owner.items()):
+                if a < 0:
+                    continue
+                nodes = sorted({int(u[s]) for s in part} | {int(v[s]) for s in part})
+                cands = sorted({int(owner[t]) for x in nodes for t in segs_at.get(x, ())} - {a, -1})
+                if not cands:
+                    continue
+                before_a = sum(bt.at(owner, a, x) for x in nodes)
+                best, best_delta, best_after = -1, -1e-9, None
+                for b in cands:
+                    if not eligible[b, part].all():
+                        continue
+                    before = before_a + sum(bt.at(owner, b, x) for x in nodes)
+                    owner[part] = b
+                    after_a = sum(bt.at(owner, a, x) for x in nodes)
+                    after_b = sum(bt.at(owner, b, x) for x in nodes)
+                    owner[part] = a
+                    delta = after_a + after_b - before
+                    if delta < best_delta:
+                        best, best_delta, best_after = b, delta, (after_a, after_b, before)
+                if best < 0:
+                    continue
+                b = best
+                w = float(est[part].sum())
+                after_a, after_b, before = best_after
+                before_b = before - before_a
+                new_a = load[a] - w + after_a - before_a
+                new_b = load[b] + w + after_b - before_b
+                if max(new_a, new_b) > max(load[a], load[b]) + slack * mean:
+                    continue
+                rest = np.flatnonzero(owner == a)
+                pset = set(part)
+                rest = [s for s in rest.tolist() if s not in pset]
+                if not rest or len(pieces(sg, rest)) > 1:
+                    continue
+                owner[part] = b
+                load[a], load[b] = new_a, new_b
+                changed += 1
+        moved += changed
+        if not changed:
+            break
+    return moved
+

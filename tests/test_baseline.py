@@ -38,6 +38,16 @@ def test_baseline_valid_and_compared(seed, k):
     check_plan_independently(doc, whole_segments=False)
     longest_base = max(r.totals.total_min for r in pieces)
     assert longest_base >= nx_lower_bound(doc) - 1e-6
+    # charged like our routes: every turn after the start at the profile's penalty, the joins included
+    for r in pieces:
+        assert r.traversals[0].turn == "start" and r.traversals[0].turn_minutes == 0.0
+        for t in r.traversals[1:]:
+            assert t.turn != "start"
+            assert t.turn_minutes == pytest.approx(profile.turn_penalty_s.get(t.turn, 0.0) / 60.0)
+    # k closed walks that together serve every pass once: at least the forced turns (solve.bounds proof)
+    from solve.bounds import turn_lower_bound
+
+    assert sum(r.totals.turn_min for r in pieces) >= turn_lower_bound(net, profile, k) - 1e-9
     # split rule: each piece is at most a k-th of the tour (less 2 c_max) plus one traversal,
     # plus the closing paths (each at most the largest depot round trip, 2 c_max)
     cost = np.array([t.minutes + t.turn_minutes for t in giant.traversals])

@@ -158,3 +158,70 @@ def test_shift_limit_no_route_can_meet():
     crews = resolve_crews(net, profile, k=2, depot_lonlat=(-30.5, 45.2))
     with pytest.raises(InputError, match="no route can meet the shift limit"):
         plan_fleet(net, profile, crews, workers=1)
+
+
+# ----------------------------------------------------------------------------- border polish
+def _brute_pairing(m: np.ndarray) -> float:
+    """Least-cost pairing of arrivals with departures by trying every assignment (brute force)."""
+    import itertools
+
+    r, c = m.shape
+    if r == 0 or c == 0:
+        return 0.0
+    if r <= c:
+        return min(sum(m[i, p[i]] for i in range(r)) for p in itertools.permutations(range(c), r))
+    return min(sum(m[p[j], j] for j in range(c)) for p in itertools.permutations(range(r), c))
+
+
+def _border_total(bt, owner, k) -> float:
+    """Sum over territories and nodes of the brute-force pairing of each territory's own passes."""
+    tot = 0.0
+    for x, m in bt.cost.items():
+        for c in range(k):
+            ra = owner[bt.arr_seg[x]] == c
+            cd = owner[bt.dep_seg[x]] == c
+            tot += _brute_pairing(m[np.ix_(ra, cd)])
+    return tot
+
+
+@pytest.mark.parametrize("seed,k", [(3, 3), (11, 4)])
+def test_polish_borders_keeps_territories_and_cuts_border_turns(seed, k):
+    from partition.territories import BorderTurns, polish_borders, street_runs
+    from solve.turns import TurnModel
+
+    profile = Profile(shift_limit_min=1440.0)
+    net = grid_network(9, 7, seed)
+    crews = resolve_crews(net, profile, k=k, depot_lonlat=(-30.5, 45.2))
+    sg, owner = _grow(net, profile, crews, seed)
+    depots = [c.depot for c in crews]
+    out, back = depot_travel(net, profile, sorted(set(depots)))
+    el = np.isfinite(round_trips(net, sg, out, back))[[0] * k]
+    model = TurnModel.from_network(net, profile)
+    bt = BorderTurns(net, sg, model)
+    before = owner.copy()
+    for x in list(bt.cost)[:30]:  # the assignment equals brute force (itertools), per node and territory
+        for c in range(k):
+            ra = owner[bt.arr_seg[x]] == c
+            cd = owner[bt.dep_seg[x]] == c
+            assert bt.at(owner, c, x) == pytest.approx(_brute_pairing(bt.cost[x][np.ix_(ra, cd)]))
+    polish_borders(net, sg, owner, el, model)
+    # every required segment still has exactly one crew; territories connected (networkx)
+    assert np.array_equal(owner >= 0, sg.required)
+    for c in range(k):
+        assert _nx_connected(net, sg, np.flatnonzero(owner == c))
+    # moves only ever lower the estimate (recomputed by brute force)
+    assert _border_total(bt, owner, k) <= _border_total(bt, before, k) + 1e-9
+    # street runs: a partition of the required segments; inside a run, nodes join exactly two
+    # required segments (counted here from the network arrays)
+    runs = street_runs(net, sg)
+    flat = sorted(s for r in runs for s in r)
+    assert flat == np.flatnonzero(sg.required).tolist()
+    req = np.flatnonzero(sg.required)
+    deg = np.bincount(np.r_[net.seg_u[req], net.seg_v[req]], minlength=net.n_nodes)
+    for r in runs:
+        g = nx.MultiGraph()
+        g.add_edges_from((int(net.seg_u[s]), int(net.seg_v[s])) for s in r)
+        assert nx.is_connected(g)
+        if len(r) > 1:
+            inner = [x for x in g.nodes if g.degree(x) == 2]
+            assert all(deg[x] == 2 for x in inner)
