@@ -33,6 +33,7 @@ leave their old crew cost something; without it the balancer is unchanged.
 from __future__ import annotations
 
 import heapq
+import math
 import time
 from dataclasses import dataclass, field
 from typing import Callable
@@ -92,10 +93,16 @@ class FleetState:
 
 
 def balance(state: FleetState, sg: StreetGraph, router: Router, eligible: np.ndarray, *, seed: int = 0,
-            tolerance: float = 0.01, max_iterations: int = 500, time_limit_s: float = 30.0,
+            tolerance: float = 0.01, max_iterations: int = 500, time_limit_s: float | None = None,
             progress: ProgressFn | None = None, move_cost: MoveCostFn | None = None) -> BalanceReport:
-    """Balance ``state`` in place; returns a before/after report (``move_cost``: see the module notes)."""
+    """Balance ``state`` in place; returns a before/after report (``move_cost``: see the module notes).
+
+    The iteration limit is the deterministic stop; ``time_limit_s`` (None: none) adds a
+    wall-clock stop, whose result may then differ from machine to machine.
+    """
     t0 = time.perf_counter()
+    if time_limit_s is None:
+        time_limit_s = math.inf
     k = len(state.routes)
     sh = state.shifts
     rep = BalanceReport(before_longest_min=float(sh.max()), before_mean_min=float(sh.mean()))

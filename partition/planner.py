@@ -44,7 +44,7 @@ ProgressFn = Callable[[str, float, float], None]
 
 
 def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: int = 0,
-               workers: int | None = None, time_limit_s: float = 30.0, tolerance: float = 0.003,
+               workers: int | None = None, time_limit_s: float | None = None, tolerance: float = 0.003,
                max_iterations: int = 500, route_time_limit_s: float = 10.0,
                progress: ProgressFn | None = None, router: Router | None = None,
                source: str = "") -> dict:
@@ -57,7 +57,7 @@ def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: 
     seed: seeds k-means and every route; same input and seed give the same plan
         (unless the balancer stops on ``time_limit_s``, which the summary says).
     workers: processes for routing (default: all cores); does not change the plan.
-    time_limit_s: wall-clock limit of the balancer.
+    time_limit_s: wall-clock limit of the balancer (None: none; the iteration limit is the deterministic stop).
     tolerance: the balancer stops when longest / mean share of shift limit <= 1 + tolerance.
     max_iterations: the balancer's iteration limit.
     router: a :class:`partition.routing.Router` to use instead of a local pool.
@@ -108,7 +108,7 @@ def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: 
     settings = {"seed": int(seed), "crews": [{"id": c.id, "depot_node": int(c.depot),
                                               "shift_limit_min": float(c.shift_limit_min)} for c in crews],
                 "balance": {"tolerance": float(tolerance), "max_iterations": int(max_iterations),
-                            "time_limit_s": float(time_limit_s)},
+                            "time_limit_s": None if time_limit_s is None else float(time_limit_s)},
                 "route_time_limit_s": float(route_time_limit_s)}
     return build_plan(net, profile, plans, source=source, settings=settings, summary=summary)
 
@@ -181,7 +181,8 @@ def _check(crews, seed, time_limit_s, tolerance, max_iterations) -> None:
         raise InputError("no crews to plan for", "give --crews K --depot LON,LAT or [[crews]] in the config")
     if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
         raise InputError(f"--seed is {seed!r}", "give a whole number of 0 or more")
-    if not (isinstance(time_limit_s, (int, float)) and math.isfinite(time_limit_s) and time_limit_s >= 0):
+    if time_limit_s is not None and not (isinstance(time_limit_s, (int, float)) and math.isfinite(time_limit_s)
+                                         and time_limit_s >= 0):
         raise InputError(f"--time-limit is {time_limit_s!r}", "give the seconds the balancer may use, 0 or more")
     if not (0 <= tolerance < 1):
         raise InputError(f"balance tolerance {tolerance!r} is outside [0, 1)", "e.g. 0.01 for 1 %")

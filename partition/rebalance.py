@@ -357,8 +357,8 @@ def _check_params(stability, overflow, tolerance, seed, time_limit_s) -> None:
         raise InputError(f"balance tolerance {tolerance!r} is outside [0, 1)", "e.g. 0.03 for 3 %")
     if isinstance(seed, bool) or not isinstance(seed, numbers.Integral) or seed < 0:
         raise InputError(f"--seed is {seed!r}", "give a whole number of 0 or more")
-    if isinstance(time_limit_s, bool) or not isinstance(time_limit_s, numbers.Real) \
-            or not math.isfinite(time_limit_s) or time_limit_s < 0:
+    if time_limit_s is not None and (isinstance(time_limit_s, bool) or not isinstance(time_limit_s, numbers.Real)
+                                     or not math.isfinite(time_limit_s) or time_limit_s < 0):
         raise InputError(f"--time-limit is {time_limit_s!r}", "give the seconds the balancer may use, 0 or more")
 
 
@@ -603,7 +603,7 @@ def rebalance_plan(plan: dict, net: Network, *, absent: Sequence[str] = (),
                    add_crews: Sequence[tuple[str, float, float]] = (), close: Iterable = (),
                    opened: Network | Sequence[RawLine] | None = None, shift_limits: dict[str, float] | None = None,
                    stability: float = 0.5, overflow: str | None = None, tolerance: float = 0.045, seed: int = 0,
-                   workers: int | None = None, time_limit_s: float = 10.0, max_iterations: int = 500,
+                   workers: int | None = None, time_limit_s: float | None = None, max_iterations: int = 500,
                    route_time_limit_s: float | None = None, progress: ProgressFn | None = None,
                    router: Router | None = None, profile: Profile | None = None, parent: dict | None = None,
                    source: str | None = None, network_name: str = "the network") -> tuple[dict, dict]:
@@ -742,7 +742,8 @@ def rebalance_plan(plan: dict, net: Network, *, absent: Sequence[str] = (),
         "crews": [{"id": c.id, "depot_node": int(c.depot), "shift_limit_min": float(c.shift_limit_min)}
                   for c in crews],
         "rebalance": {"stability": float(stability), "overflow": overflow, "tolerance": float(tolerance),
-                      "time_limit_s": float(time_limit_s), "max_iterations": int(max_iterations)},
+                      "time_limit_s": None if time_limit_s is None else float(time_limit_s),
+                         "max_iterations": int(max_iterations)},
         "route_time_limit_s": float(route_time_limit_s)})
     history = _history(plan, parent, crews, absent, add_crews, shift_limits, closed, added, today, stability,
                        overflow)

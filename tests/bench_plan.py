@@ -42,7 +42,7 @@ def main() -> None:
     ap.add_argument("--sizes", default="2000,20000")
     ap.add_argument("--crews", default="4,12")
     ap.add_argument("--workers", type=int, default=2)
-    ap.add_argument("--time-limit", type=float, default=30.0)
+    ap.add_argument("--time-limit", type=float, default=None)
     ap.add_argument("--seed", type=int, default=0)
     a = ap.parse_args()
     profile = dataclasses.replace(builtin_profile("curb-sweeping"), shift_limit_min=1440.0, crews=())

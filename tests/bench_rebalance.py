@@ -84,7 +84,7 @@ def main() -> None:
     ap.add_argument("--segments", type=int, default=20000)
     ap.add_argument("--crews", type=int, default=12)
     ap.add_argument("--workers", type=int, default=2)
-    ap.add_argument("--time-limit", type=float, default=60.0, help="balancer limit of the initial plan")
+    ap.add_argument("--time-limit", type=float, default=None, help="balancer limit of the initial plan")
     ap.add_argument("--stability", type=float, default=None, help="override the rebalance default")
     ap.add_argument("--seed", type=int, default=0)
     a = ap.parse_args()

@@ -22,9 +22,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="seed for every random choice; same input and seed, same plan (default 0)")
     parser.add_argument("--workers", metavar="N", type=int, default=None,
                         help="processes routing territories in parallel (default: all cores)")
-    parser.add_argument("--time-limit", metavar="SECONDS", type=float, default=30.0,
-                        help="time the balancer may take (default 30); a plan cut short by it may "
-                             "differ between machines")
+    parser.add_argument("--time-limit", metavar="SECONDS", type=float, default=None,
+                        help="wall-clock time the balancer may take (default: no limit; it stops at its "
+                             "tolerance or iteration limit, so the same input and seed give the same plan); "
+                             "a plan cut short by a time limit may differ between machines")
     parser.add_argument("--out", metavar="DIR", default="crewcut-out",
                         help="folder for plan.json (default ./crewcut-out)")
 

@@ -51,8 +51,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="seed for every random choice; same input and seed, same plan (default 0)")
     parser.add_argument("--workers", metavar="N", type=int, default=None,
                         help="processes routing territories in parallel (default: all cores)")
-    parser.add_argument("--time-limit", metavar="SECONDS", type=float, default=10.0,
-                        help="time the balancer may take (default 10); a plan cut short by it may differ between "
+    parser.add_argument("--time-limit", metavar="SECONDS", type=float, default=None,
+                        help="wall-clock time the balancer may take (default: no limit, so the same input and "
+                             "seed give the same plan); a plan cut short by a time limit may differ between "
                              "machines")
     parser.add_argument("--out", metavar="DIR",
                         help="folder for the new plan.json (default: a new folder rebalanced-N next to PLAN)")
