@@ -77,7 +77,7 @@ class Network:
 
     node_lon: np.ndarray  # float64 (n,), NaN when the input had no geometry
     node_lat: np.ndarray
-    node_x: np.ndarray  # float64 (n,), metres in the local projection
+    node_x: np.ndarray  # float64 (n,), metres in the local projection (a path-length layout without geometry)
     node_y: np.ndarray
     node_label: list[str]  # the source's node id (OSM node, CSV label) or ""
     seg_source: list[str]  # source feature id of each segment

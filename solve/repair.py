@@ -33,6 +33,7 @@ import numpy as np
 
 from .errors import InputError
 from .geodesy import geodesic_lengths, project
+from .layout import path_layout
 from .network import SERVICE_NAMES, Finding, Network, RawLine
 from .profile import Profile
 
@@ -191,8 +192,10 @@ def _build_plain(lines, services, profile, findings) -> Network:
     keep = _clean(lines, parent, u, v, lengths, lambda i: None, 0.0, findings)
     n = len(labels)
     nan = np.full(n, np.nan)
+    # No coordinates: lay the nodes out from path lengths, for grouping only (not maps, not turns).
+    x, y = path_layout(n, u[keep], v[keep], lengths[keep])
     return _finish(lines, services, keep, u[keep], v[keep], [None] * keep.size, lengths[keep],
-                   nan, nan.copy(), nan.copy(), nan.copy(), list(labels), False, (0.0, 0.0), findings)
+                   nan, nan.copy(), x, y, list(labels), False, (0.0, 0.0), findings)
 
 
 # -------------------------------------------------------------------- with geometry
