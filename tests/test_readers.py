@@ -95,7 +95,7 @@ def test_csv_edge_list(tmp_path):
                     "\n"
                     "C,A,95,yes,,none,service\n", encoding="utf-8")
     net = read_network(path, PROFILE)
-    assert not net.has_geometry and np.isnan(net.node_lon).all() and np.isnan(net.node_x).all()
+    assert not net.has_geometry and np.isnan(net.node_lon).all() and np.isfinite(net.node_x).all()
     assert net.seg_source == ["row 2", "row 3", "row 5"]  # file line numbers
     assert net.node_label == ["A", "B", "C"]
     assert net.seg_length.tolist() == [120.5, 80.0, 95.0]
