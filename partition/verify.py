@@ -47,11 +47,21 @@ class Violation:
 def check_plan(plan: dict, net: Network, profile: Profile, *, first_only: bool = True) -> list[Violation]:
     """All violations found (just the first one with ``first_only``); empty when the plan is valid."""
     out: list[Violation] = []
-    for v in _checks(plan, net, profile):
-        out.append(v)
-        if first_only:
-            break
+    try:
+        for v in _checks(plan, net, profile):
+            out.append(v)
+            if first_only:
+                break
+    except (KeyError, TypeError, ValueError, AttributeError, IndexError) as exc:
+        # a hand-edited or truncated file: say so instead of a traceback
+        out.append(Violation("plan file", f"a record is malformed or has a value of the wrong type "
+                                          f"({type(exc).__name__}: {exc})"))
     return out
+
+
+def _is_id(x, n: int) -> bool:
+    """A segment or node id: a whole number (not true/false) in [0, n)."""
+    return isinstance(x, int) and not isinstance(x, bool) and 0 <= x < n
 
 
 def _total_tol(n: int, unit: float) -> float:
@@ -96,7 +106,7 @@ def _checks(plan: dict, net: Network, profile: Profile):
     deferred = set()
     for d in plan.get("deferred", []) or []:
         s = d.get("segment") if isinstance(d, dict) else None
-        if not (isinstance(s, int) and 0 <= s < net.n_segments and need[s]):
+        if not (_is_id(s, net.n_segments) and need[s]):
             yield Violation("deferred", f"the defer list names {s!r}, which is not a segment needing service")
             return
         deferred.add(s)
@@ -109,7 +119,7 @@ def _checks(plan: dict, net: Network, profile: Profile):
             return
         ids.add(cid)
         for s in crew.get("territory", []):
-            if not (isinstance(s, int) and 0 <= s < net.n_segments):
+            if not _is_id(s, net.n_segments):
                 yield Violation(f"crew '{cid}'", f"territory names segment {s!r}, which does not exist")
                 return
             if not need[s]:
@@ -136,7 +146,7 @@ def _checks(plan: dict, net: Network, profile: Profile):
     for ci, crew in enumerate(crews):
         cid = crew.get("id")
         depot = crew.get("depot_node")
-        if not (isinstance(depot, int) and 0 <= depot < net.n_nodes):
+        if not _is_id(depot, net.n_nodes):
             yield Violation(f"crew '{cid}'", f"depot node {depot!r} does not exist")
             return
         shift = 0.0
@@ -147,7 +157,7 @@ def _checks(plan: dict, net: Network, profile: Profile):
             for i, t in enumerate(trs):
                 s, a, b = t.get("segment"), t.get("from"), t.get("to")
                 w = f"{where} step {i + 1}"
-                if not (isinstance(s, int) and 0 <= s < net.n_segments):
+                if not _is_id(s, net.n_segments):
                     yield Violation(w, f"segment {s!r} does not exist")
                     return
                 if net.seg_closed[s]:

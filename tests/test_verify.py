@@ -153,6 +153,23 @@ def test_wrong_minutes(valid):
     assert "minutes" in _first(p, net, profile)
 
 
+@pytest.mark.parametrize("edit", ["drop_minutes", "crew_not_object", "null_total", "bool_segment"])
+def test_malformed_records_are_violations_not_crashes(valid, edit):
+    # a hand-edited plan file is bad input: a violation naming it, never an exception (brief, "Bad input")
+    plan, net, profile = valid
+    p = copy.deepcopy(plan)
+    if edit == "drop_minutes":
+        del p["crews"][0]["routes"][0]["traversals"][1]["minutes"]
+    elif edit == "crew_not_object":
+        p["crews"][1] = "crew-2"
+    elif edit == "null_total":
+        p["crews"][0]["routes"][0]["totals"]["total_min"] = None
+    else:
+        p["crews"][0]["territory"][0] = True
+    msg = _first(p, net, profile)
+    assert "malformed" in msg or "does not exist" in msg
+
+
 # ----------------------------------------------------------------------------- the JSON Schema
 def _validate(doc, schema, root, path="$"):
     """The subset of JSON Schema draft 2020-12 that partition/plan.schema.json uses.
