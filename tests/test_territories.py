@@ -1,8 +1,9 @@
 """Crews, seeds and territory growth: coverage, connectivity, and bad input.
 
 Connectivity is checked with networkx (``nx.is_connected`` on the line graph of
-each territory's streets, plus the drive-through links), not with the planner's
-own helper.
+each territory's streets, plus the planner's drive-through links, each of which is
+checked first to be a real path over open streets that need no service), not with
+the planner's own helper.
 """
 from __future__ import annotations
 
@@ -48,9 +49,18 @@ def _nx_connected(net, sg, segs) -> bool:
     for group in by_node.values():
         nx.add_path(g, group)
     members = set(segs)
+    # open streets that need no service, for checking the planner's links on their own
+    through = nx.Graph()
+    free = np.flatnonzero(~net.seg_closed & ~sg.required)
+    through.add_edges_from(zip(net.seg_u[free].tolist(), net.seg_v[free].tolist()))
     for s in segs:  # links between groups that only drive-through streets join
         for t in sg.neighbours(s).tolist():
             if t in members:
+                ends_s = {int(net.seg_u[s]), int(net.seg_v[s])}
+                ends_t = {int(net.seg_u[t]), int(net.seg_v[t])}
+                assert ends_s & ends_t or any(
+                    a in through and b in through and nx.has_path(through, a, b) for a in ends_s for b in ends_t), \
+                    f"segments {s} and {t} are linked, but no drive-through street joins them"
                 g.add_edge(s, t)
     return len(segs) > 0 and nx.is_connected(g)
 
