@@ -17,8 +17,9 @@ Method (cluster first, route second, then local search)
 3. :mod:`partition.routing`: one rural postman route per territory
    (:func:`solve.route.plan_route`), in parallel;
 4. :mod:`partition.balance`: boundary moves and swaps re-routed exactly;
-5. :func:`solve.bounds.fleet_lower_bound`: max(single-crew cost / k, the longest
-   depot -> pass -> depot round trip), after Ahr and Reinelt (2006).
+5. :func:`solve.bounds.fleet_lower_bound`: max(a bound on all crews' minutes
+   together / k, the longest depot -> pass -> depot round trip), after Ahr and
+   Reinelt (2006).
 """
 from __future__ import annotations
 
