@@ -41,6 +41,7 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components, dijkstra, minimum_spanning_tree
 
 from .errors import InputError
+from .tjoin import merge_parallel
 
 
 @dataclass(frozen=True)
@@ -89,19 +90,6 @@ def check_reachable(items_tail, items_head, items_seg, arcs_tail, arcs_head, dep
         "bridge), or leave these segments out of the territory")
 
 
-def cheapest_undirected(arcs_tail, arcs_head, cost, n_nodes: int):
-    """Undirected csr graph with each node pair's cheapest arc; returns (graph, arc index matrix)."""
-    a = np.minimum(arcs_tail, arcs_head)
-    b = np.maximum(arcs_tail, arcs_head)
-    idx = np.flatnonzero(a != b)
-    order = np.lexsort((idx, cost[idx], b[idx], a[idx]))
-    idx = idx[order]
-    first = np.ones(idx.size, bool)
-    first[1:] = (a[idx][1:] != a[idx][:-1]) | (b[idx][1:] != b[idx][:-1])
-    idx = idx[first]
-    return idx, a[idx], b[idx]
-
-
 def connect_pieces(items_tail, items_head, depot: int, arcs_tail, arcs_head, arcs_seg, arcs_cost,
                    n_nodes: int) -> Connection:
     """Connector arcs joining all pieces of the items plus the depot (Frederickson 1979)."""
@@ -127,7 +115,8 @@ def connect_pieces(items_tail, items_head, depot: int, arcs_tail, arcs_head, arc
     piece = np.full(n_nodes, -1, np.int64)
     piece[req_nodes] = piece_of_req
     # Undirected street graph, each node pair at its cheapest legal direction.
-    keep, a, b = cheapest_undirected(arcs_tail, arcs_head, arcs_cost, n_nodes)
+    keep = merge_parallel(arcs_tail, arcs_head, arcs_cost)
+    a, b = np.minimum(arcs_tail[keep], arcs_head[keep]), np.maximum(arcs_tail[keep], arcs_head[keep])
     w = arcs_cost[keep]
     ug = sp.csr_matrix((w, (a, b)), shape=(n_nodes, n_nodes))  # explicit zeros stay edges
     dist, pred, src = dijkstra(ug, directed=False, indices=req_nodes, min_only=True, return_predecessors=True)
