@@ -200,14 +200,32 @@ def fleet_lower_bound(net: Network, profile: Profile, depots: list[int], k: int,
     if len(tasks) == 0:
         return 0.0
     arcs = build_deadhead(net, profile)
+    return _min_max_bound(net, profile, tasks, arcs, ds, int(k),
+                          augmentation_lower_bound(tasks, arcs, net.n_nodes))
+
+
+def route_lower_bound(net: Network, profile: Profile, depot: int, tasks, arcs, augmentation_bound: float) -> float:
+    """:func:`fleet_lower_bound` for one crew at ``depot``, given the tasks, the deadhead
+    arcs and a proven bound on their augmentation (an Eulerization's ``lower_bound``,
+    which is never below :func:`solve.eulerize.augmentation_lower_bound`).
+
+    The route engine calls this with the tables it already built, so nothing is
+    solved twice.
+    """
+    if len(tasks) == 0:
+        return 0.0
+    return _min_max_bound(net, profile, tasks, arcs, [int(depot)], 1, float(augmentation_bound))
+
+
+def _min_max_bound(net, profile, tasks, arcs, depots: list[int], k: int, augmentation_bound: float) -> float:
+    """``max(total / k, longest round trip)`` (module notes, k crews)."""
     turn = _turn_terms(net, profile, tasks, arcs)
-    rt = _round_trips(net, tasks, arcs, ds, turn)
+    rt = _round_trips(net, tasks, arcs, depots, turn)
     if not np.all(np.isfinite(rt)):
         bad = np.unique(tasks.seg[~np.isfinite(rt)])
         names = ", ".join(f"segment {int(s)} ('{net.seg_source[int(s)]}')" for s in bad[:8])
         raise InputError(f"{bad.size} required segment(s) cannot be reached from any depot and driven back: "
                          f"{names}", "check one-way directions and closed segments near them, "
                          "or leave these segments out")
-    total = (float(tasks.minutes.sum()) + augmentation_lower_bound(tasks, arcs, net.n_nodes)
-             + _turn_sum(turn.min(axis=0), int(k)))
-    return float(max(total / int(k), float(rt.max())))
+    total = float(tasks.minutes.sum()) + augmentation_bound + _turn_sum(turn.min(axis=0), k)
+    return float(max(total / k, float(rt.max())))

@@ -30,11 +30,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .bounds import route_lower_bound
 from .circuit import euler_circuit
 from .errors import InputError
+from .eulerize import augmented_arcs, eulerize
 from .network import Network
 from .profile import Profile
 from .result import TURNS, Augmentation, Route, RouteTotals, Traversal
+from .tasks import DeadheadArcs, TaskSet, build_deadhead, build_tasks
 from .turns import TurnModel
 
 
@@ -84,17 +87,6 @@ def _check_params(time_limit_s, seed) -> None:
         raise InputError(f"seed must be a whole number 0 or more, got {seed!r}")
 
 
-def _lower_bound(net, profile, depot, segments, service_min: float, aug) -> float:
-    lb = service_min + float(aug.lower_bound)
-    try:
-        from .bounds import fleet_lower_bound, turn_lower_bound
-    except ImportError:  # bounds not available: the augmentation's bound stands
-        return lb
-    seg_list = None if segments is None else segments.tolist()
-    lb += float(turn_lower_bound(net, profile, 1, seg_list))
-    return max(lb, float(fleet_lower_bound(net, profile, [depot], 1, seg_list)))
-
-
 @dataclass(frozen=True)
 class AugmentedTraversals:
     """The tasks as driven plus the deadhead traversals an Eulerization added.
@@ -113,6 +105,8 @@ class AugmentedTraversals:
     aug: Augmentation
     n_tasks: int
     n_added: int
+    tasks: TaskSet
+    arcs: DeadheadArcs
 
 
 def augmented_traversals(net: Network, profile: Profile, depot: int, segments=None, *,
@@ -121,33 +115,28 @@ def augmented_traversals(net: Network, profile: Profile, depot: int, segments=No
 
     Parameters are those of :func:`plan_route`, assumed already checked.
     """
-    from .eulerize import eulerize
-    from .tasks import build_deadhead, build_tasks
-
     tasks = build_tasks(net, profile, None if segments is None else [int(s) for s in segments])
     arcs = build_deadhead(net, profile)
-    n_tasks = int(np.asarray(tasks.seg).size)
+    n_tasks = len(tasks)
     if n_tasks == 0:
         return None
     aug = eulerize(tasks, arcs, depot, net.n_nodes, time_limit_s=float(time_limit_s), seed=int(seed),
                    seg_source=net.seg_source)
 
     # the tasks as driven, then the added deadhead traversals
-    orient = np.asarray(aug.orientation, bool)
-    t_tail = np.where(orient, tasks.tail, tasks.head).astype(np.int64)
-    t_head = np.where(orient, tasks.head, tasks.tail).astype(np.int64)
-    extra = np.asarray(aug.arcs, np.int64)
-    tail = np.concatenate([t_tail, np.asarray(arcs.tail, np.int64)[extra]])
-    head = np.concatenate([t_head, np.asarray(arcs.head, np.int64)[extra]])
-    seg = np.concatenate([np.asarray(tasks.seg, np.int64), np.asarray(arcs.seg, np.int64)[extra]])
+    extra = aug.arcs
+    tail, head = augmented_arcs(tasks, arcs, aug)
+    seg = np.concatenate([tasks.seg, arcs.seg[extra]])
     service = np.concatenate([np.ones(n_tasks, bool), np.zeros(extra.size, bool)])
-    minutes = np.concatenate([np.asarray(tasks.minutes, float), np.asarray(arcs.minutes, float)[extra]])
-    metres = np.concatenate([np.asarray(tasks.metres, float), np.asarray(arcs.metres, float)[extra]])
+    minutes = np.concatenate([tasks.minutes, arcs.minutes[extra]])
+    metres = np.concatenate([tasks.metres, arcs.metres[extra]])
     # u -> v, read from the network itself (a loop street counts as forward)
+    t_tail, t_head = tail[:n_tasks], head[:n_tasks]
     forward = np.concatenate([(t_tail == net.seg_u[tasks.seg]) & (t_head == net.seg_v[tasks.seg]),
-                              np.asarray(arcs.forward, bool)[extra]])
+                              arcs.forward[extra]])
 
-    return AugmentedTraversals(tail, head, seg, forward, service, minutes, metres, aug, n_tasks, int(extra.size))
+    return AugmentedTraversals(tail, head, seg, forward, service, minutes, metres, aug, n_tasks, int(extra.size),
+                               tasks, arcs)
 
 
 def plan_route(net: Network, profile: Profile, depot: int, segments=None, *, turn_aware: bool = True,
@@ -201,11 +190,11 @@ def plan_route(net: Network, profile: Profile, depot: int, segments=None, *, tur
             seg[o].tolist(), tail[o].tolist(), head[o].tolist(), service[o].tolist(), metres[o].tolist(),
             minutes[o].tolist(), circuit.turn.tolist(), turn_min.tolist()))
     totals = RouteTotals.of(traversals)
-    service_min = float(minutes[service].sum())
     stats = dict(circuit.stats)
     stats.update(tasks=n_tasks, deadhead_added=extra, augmentation_min=float(aug.cost),
                  augmentation_lower_bound_min=float(aug.lower_bound), circuit=circuit.method)
     return Route(depot=depot, traversals=traversals, totals=totals,
                  method=f"{aug.method}; {'turn-aware circuit' if turn_aware else 'Hierholzer circuit'}",
                  exact=bool(aug.exact),
-                 lower_bound_min=_lower_bound(net, profile, depot, seg_sel, service_min, aug), stats=stats)
+                 lower_bound_min=route_lower_bound(net, profile, depot, trav.tasks, trav.arcs, aug.lower_bound),
+                 stats=stats)
