@@ -128,11 +128,10 @@ def eulerize(tasks: TaskSet, arcs: DeadheadArcs, depot: int, n_nodes: int, *,
     suffix = f" + rural connection of {conn.n_pieces} pieces (Frederickson spanning tree)" if rural else ""
     fwd, bwd = _arc_lookup(arcs)
     at, ah, ac = arcs.tail, arcs.head, arcs.minutes
-    ct, ch = at[conn.arc], ah[conn.arc]
+    it = np.concatenate([tasks.tail, at[conn.arc]])  # items: the tasks, then the connectors
+    ih = np.concatenate([tasks.head, ah[conn.arc]])
 
     if not tasks.directed.any() and _symmetric(arcs):
-        it = np.concatenate([tasks.tail, ct])
-        ih = np.concatenate([tasks.head, ch])
         deg = np.bincount(it, minlength=n_nodes) + np.bincount(ih, minlength=n_nodes)
         tj = min_tjoin(at, ah, ac, deg % 2 == 1, n_nodes)
         j = tj.edges
@@ -148,8 +147,6 @@ def eulerize(tasks: TaskSet, arcs: DeadheadArcs, depot: int, n_nodes: int, *,
         method = "minimum T-join (Edmonds-Johnson, sparse blossom)" + suffix
         exact = not rural
     elif tasks.directed.all():
-        it = np.concatenate([tasks.tail, ct])
-        ih = np.concatenate([tasks.head, ch])
         sup = np.bincount(ih, minlength=n_nodes).astype(np.int64) - np.bincount(it, minlength=n_nodes)
         f = min_cost_flow(at, ah, ac, sup)
         orient = np.ones(nt, bool)
@@ -163,8 +160,6 @@ def eulerize(tasks: TaskSet, arcs: DeadheadArcs, depot: int, n_nodes: int, *,
         method = "minimum-cost flow (Edmonds-Johnson, OR-tools)" + suffix
         exact = not rural
     else:
-        it = np.concatenate([tasks.tail, ct])
-        ih = np.concatenate([tasks.head, ch])
         idir = np.concatenate([tasks.directed, ~conn.two_way])
         real = np.concatenate([np.ones(nt, bool), np.zeros(conn.arc.size, bool)])
         r = solve_mixed(it, ih, idir, at, ah, ac, n_nodes, time_limit_s=time_limit_s, seed=seed,
