@@ -151,9 +151,10 @@ class Network:
     # -------------------------------------------------------- identity, io
     @cached_property
     def fingerprint(self) -> str:
-        """SHA-256 over topology, lengths, directions, service and closures.
+        """SHA-256 over topology, lengths, directions, service, closures and source ids.
 
-        Two networks with the same fingerprint plan identically.
+        Road classes and speed caps are not covered, so two networks with the same
+        fingerprint may still differ in minutes; compare per-segment minutes where that matters.
         """
         h = hashlib.sha256()
         for arr in (self.seg_u, self.seg_v):

@@ -13,7 +13,7 @@ Method
 The heading on arrival and the heading on departure come from the segments'
 compass bearings at the node (:attr:`solve.network.Network.bearings`); a
 traversal driven backwards (``v -> u``) has its bearings turned by 180 degrees.
-The signed heading change ``d`` in (-180, 180] (positive = clockwise = to the
+The signed heading change ``d`` in [-180, 180) (positive = clockwise = to the
 right) is classified:
 
 * leaving along the same segment it arrived on, the other way round: U-turn;
