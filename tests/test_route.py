@@ -20,10 +20,7 @@ from route_nets import ORIGIN, assert_closed_walk, grid_network, make_network
 from solve.errors import InputError
 from solve.network import SERVICE_BOTH_SIDES, SERVICE_EACH_DIRECTION, SERVICE_NONE, SERVICE_ONE_PASS
 from solve.profile import Profile
-
-pytest.importorskip("solve.tasks")
-pytest.importorskip("solve.eulerize")
-from solve.route import plan_route  # noqa: E402
+from solve.route import plan_route
 
 
 def walk_arrays(net, route):

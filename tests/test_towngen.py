@@ -233,10 +233,10 @@ def test_example_config_loads_with_crews_on_streets():
 
 
 def test_example_loads_without_errors():
-    readers = pytest.importorskip("solve.readers", reason="solve.readers is not written yet (readers helper)")
     from solve.profile import load_profile
+    from solve.readers import read_network
 
-    net = readers.read_network(EXAMPLE, load_profile(EXAMPLE_CONFIG))
+    net = read_network(EXAMPLE, load_profile(EXAMPLE_CONFIG))
     assert not [f for f in net.findings if f.severity == "error"]
     shipped = json.loads(EXAMPLE.read_text(encoding="utf-8"))
     assert net.n_segments == len(shipped["features"])
