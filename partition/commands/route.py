@@ -99,7 +99,7 @@ def _print(ui, source, profile_name: str, depot_text: str, route, path: Path) ->
     q.add_column("unit")
     q.add_row("method", route.method, "")
     q.add_row("deadhead proven least", "yes" if route.exact else "no (heuristic)", "")
-    q.add_row("lower bound (service + deadhead)", f"{route.lower_bound_min:,.1f}", "min")
+    q.add_row("lower bound (service, deadhead, forced turns)", f"{route.lower_bound_min:,.1f}", "min")
     q.add_row("gap (total with turns over the bound)", f"{100 * route.gap:,.2f}", "%")
     out.print(q)
 
