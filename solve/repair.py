@@ -41,7 +41,7 @@ _MIN_TOUCH_M = 0.01  # with tolerance 0 a "touch" still allows float noise of 1 
 
 
 def build_network(lines: list[RawLine], profile: Profile, *, has_geometry: bool = True,
-                  findings: tuple[Finding, ...] | list[Finding] = ()) -> Network:
+                  findings: tuple[Finding, ...] | list[Finding] = (), source: str = "the input") -> Network:
     """Repair the topology of ``lines`` and build the network.
 
     Parameters
@@ -55,19 +55,25 @@ def build_network(lines: list[RawLine], profile: Profile, *, has_geometry: bool 
         service per road class.
     findings:
         Remarks the reader already made; they are kept, repair findings follow.
+    source:
+        The file the lines came from, named in messages.
 
     Raises
     ------
     InputError
         Empty network, a self-loop, or an unknown service value.
     """
+    hint = "check that the file holds street lines (and, for OpenStreetMap, drivable highway ways)"
     if not lines:
-        raise InputError("the network is empty: no street lines were found in the input",
-                         "check that the file holds street lines (and, for OpenStreetMap, drivable highway ways)")
+        raise InputError(f"{source}: the network is empty: no street lines were found", hint)
     services = _resolve_services(lines, profile)
     if has_geometry:
-        return _build_geometric(lines, services, profile, list(findings))
-    return _build_plain(lines, services, profile, list(findings))
+        net = _build_geometric(lines, services, profile, list(findings))
+    else:
+        net = _build_plain(lines, services, profile, list(findings))
+    if net.n_segments == 0:
+        raise InputError(f"{source}: the network is empty: all {len(lines)} street line(s) have zero length", hint)
+    return net
 
 
 # ----------------------------------------------------------------------------- shared

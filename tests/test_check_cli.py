@@ -181,6 +181,13 @@ def test_empty_network(capsys, tmp_path):
     run_bad(capsys, tmp_path, ["check", str(path)], "the network is empty")
 
 
+def test_network_of_zero_length_lines_only(capsys, tmp_path):
+    # Every line starts and ends on one point: repair drops them all, which leaves no street
+    # to plan (common practice, no source); the file is named in the message.
+    path = write(tmp_path / "z.geojson", collection([feature([offset(0, 0), offset(0, 0)], id="dot")]))
+    run_bad(capsys, tmp_path, ["check", str(path)], "z.geojson: the network is empty")
+
+
 def test_depot_too_far(capsys, tmp_path):
     path = write(tmp_path / "town.geojson", grid(3, 3))
     lon, lat = offset(0, 3000)

@@ -86,6 +86,15 @@ def test_feature_level_id_is_used(tmp_path):
     assert read_network(write(tmp_path / "t.geojson", collection([f])), PROFILE).seg_source == ["top"]
 
 
+def test_null_property_id_falls_back_to_the_feature_id(tmp_path):
+    # RFC 7946 section 3.2: a Feature's identifier is its top-level "id"; a JSON null is no id at all.
+    f = feature([offset(0, 0), offset(100, 0)], id=None)
+    f["id"] = "top"
+    g = feature([offset(100, 0), offset(200, 0)], id=None)
+    net = read_network(write(tmp_path / "t.geojson", collection([f, g])), PROFILE)
+    assert net.seg_source == ["top", "1"]  # the second falls back to its index, never "None"
+
+
 # ----------------------------------------------------------------------- CSV
 def test_csv_edge_list(tmp_path):
     path = tmp_path / "e.csv"

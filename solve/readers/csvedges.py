@@ -96,4 +96,4 @@ def _parse(path: Path, reader, profile: Profile) -> Network:
             speed_kmh=parse_speed(cell("speed_kmh") or None, where),
             closed=parse_closed(cell("closed") or None, where),
             from_label=a, to_label=b, length_m=length))
-    return build_network(lines, profile, has_geometry=False)
+    return build_network(lines, profile, has_geometry=False, source=str(path))

@@ -129,7 +129,7 @@ def features_to_lines(doc, source: str) -> list[RawLine]:
         props = f.get("properties") or {}
         if not isinstance(props, dict):
             raise InputError(f"{source}: features[{i}]: 'properties' is not an object")
-        fid = props.get("id", f.get("id", i))
+        fid = next((x for x in (props.get("id"), f.get("id")) if x is not None), i)
         fid = str(fid)
         where = f"{source}: feature '{fid}'"
         geom = f.get("geometry")
@@ -175,4 +175,4 @@ def read_geojson(path: str | Path, profile: Profile) -> Network:
     except OSError as exc:
         raise InputError(f"{path}: cannot be read ({exc.strerror})") from None
     lines = features_to_lines(doc, str(path))
-    return build_network(lines, profile, has_geometry=True)
+    return build_network(lines, profile, has_geometry=True, source=str(path))

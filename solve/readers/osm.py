@@ -117,7 +117,7 @@ def read_osm(path: str | Path, profile: Profile) -> Network:
             f"only their parts inside were read (first: {', '.join(f'way/{w}' for w in cut_ways[:5])})",
             "use an extract that covers the whole working area with a margin"))
     if not runs:
-        return build_network([], profile, findings=findings)
+        return build_network([], profile, findings=findings, source=str(path))
     all_refs = np.concatenate([r[1] for r in runs])
     uniq, counts = np.unique(all_refs, return_counts=True)
     junction = set(uniq[counts >= 2].tolist())
@@ -140,4 +140,4 @@ def read_osm(path: str | Path, profile: Profile) -> Network:
                     oneway=1 if direction else 0, from_label=f"node/{int(refs[s])}",
                     to_label=f"node/{int(refs[e])}"))
     exact = dataclasses.replace(profile, snap_tolerance_m=0.0, split_at_touch=False)
-    return build_network(lines, exact, findings=findings)
+    return build_network(lines, exact, findings=findings, source=str(path))
