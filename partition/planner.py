@@ -36,7 +36,7 @@ from solve.turns import TurnModel
 from .balance import BalanceReport, FleetState, balance
 from .crews import FleetCrew
 from .planfile import CrewPlan, build_plan
-from .routing import LocalRouter, RouteJob, Router
+from .routing import LocalRouter, RouteJob, Router, check_workers
 from .seeding import seed_territories
 from .streets import build_street_graph, depot_travel, round_trips
 from .territories import _describe, grow_territories, polish_borders, smooth_boundaries, territories_of
@@ -65,6 +65,7 @@ def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: 
     progress: ``progress(description, done, total)`` callback; the library prints nothing.
     """
     _check(crews, seed, time_limit_s, tolerance, max_iterations)
+    check_workers(workers)
     report = _progress(progress)
     k = len(crews)
     sg = build_street_graph(net, profile)

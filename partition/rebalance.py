@@ -92,7 +92,7 @@ from solve.result import Route, RouteTotals, Traversal
 from .balance import FleetState, balance
 from .planfile import CrewPlan, build_plan, dumps
 from .planner import fleet_summary
-from .routing import LocalRouter, RouteJob, Router
+from .routing import LocalRouter, RouteJob, Router, check_workers
 from .streets import StreetGraph, build_street_graph, depot_travel, round_trips
 from .territories import DEADHEAD_ALLOWANCE, _attach_leftovers, _describe, pieces, territories_of
 from .verify import profile_of_plan
@@ -632,6 +632,7 @@ def rebalance_plan(plan: dict, net: Network, *, absent: Sequence[str] = (),
     progress: ``progress(description, done, total)``; the library prints nothing.
     """
     _check_params(stability, overflow, tolerance, seed, time_limit_s)
+    check_workers(workers)
     report = progress or (lambda *a: None)
     profile = profile or profile_of_plan(plan)
     settings = plan.get("settings", {})

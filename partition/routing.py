@@ -48,6 +48,14 @@ class Router(Protocol):
     def close(self) -> None: ...
 
 
+def check_workers(workers: int | None) -> None:
+    """None (all cores) or a whole number of 1 or more; checked before any work starts."""
+    if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int) or workers < 1):
+        from solve.errors import InputError
+
+        raise InputError(f"--workers is {workers!r}", "give a whole number of 1 or more (default: all cores)")
+
+
 def default_workers() -> int:
     try:
         return max(1, len(os.sched_getaffinity(0)))
@@ -90,10 +98,7 @@ class LocalRouter:
 
     def __init__(self, net: Network, profile: Profile, *, workers: int | None = None,
                  time_limit_s: float = 10.0, turn_aware: bool = True) -> None:
-        if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int) or workers < 1):
-            from solve.errors import InputError
-
-            raise InputError(f"--workers is {workers!r}", "give a whole number of 1 or more (default: all cores)")
+        check_workers(workers)
         self.net = net
         self.profile = profile
         self.workers = default_workers() if workers is None else workers

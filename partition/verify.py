@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from solve.costs import required_passes
+from solve.costs import deadhead_minutes, required_passes, service_minutes
 from solve.network import Network
 from solve.profile import Profile
 
@@ -96,6 +96,16 @@ def _checks(plan: dict, net: Network, profile: Profile):
             return
     smin = np.array([float(r["service_min"]) for r in segs])
     dmin = np.array([float(r["deadhead_min"]) for r in segs])
+    # The recorded minutes must be what the profile gives for this network (the
+    # fingerprint does not cover road classes or speeds).
+    for name, got, want in (("service_min", smin, service_minutes(net, profile)),
+                            ("deadhead_min", dmin, deadhead_minutes(net, profile))):
+        off = np.flatnonzero(np.abs(got - want) > 1e-4 + 1e-6 * want)
+        if off.size:
+            s = int(off[0])
+            yield Violation(f"segment {s}", f"the plan records {name} {got[s]:.5f}, the network and profile give "
+                            f"{want[s]:.5f} (different speeds or road classes?)")
+            return
     ignore_oneway = bool(plan.get("settings", {}).get("profile", {}).get("ignore_oneway", profile.ignore_oneway))
     crews = plan.get("crews", [])
     if not crews:

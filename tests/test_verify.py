@@ -153,6 +153,14 @@ def test_wrong_minutes(valid):
     assert "minutes" in _first(p, net, profile)
 
 
+def test_plan_made_with_other_speeds(valid):
+    # The fingerprint covers topology, not speeds: a plan timed with another profile
+    # must not pass against this one (minutes = length / speed, common practice).
+    plan, net, profile = valid
+    slower = Profile(service_speed_kmh={"default": 5.0}, deadhead_speed_kmh={"default": 25.0})
+    assert "service_min" in _first(plan, net, slower)
+
+
 @pytest.mark.parametrize("edit", ["drop_minutes", "crew_not_object", "null_total", "bool_segment"])
 def test_malformed_records_are_violations_not_crashes(valid, edit):
     # a hand-edited plan file is bad input: a violation naming it, never an exception (brief, "Bad input")
