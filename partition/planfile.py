@@ -183,4 +183,51 @@ def read_plan(path: str | Path) -> dict:
     for key in ("network", "crews", "settings"):
         if key not in plan:
             raise InputError(f"{path}: plan file has no '{key}' section")
+    problem = _shape_problem(plan)
+    if problem:
+        raise InputError(f"{path}: damaged plan file: {problem}",
+                         "re-plan, or restore the file as crewcut wrote it")
     return plan
+
+
+def _is_int(x) -> bool:
+    return isinstance(x, int) and not isinstance(x, bool)
+
+
+def _is_num(x) -> bool:
+    return isinstance(x, (int, float)) and not isinstance(x, bool)
+
+
+_TRAVERSAL_KEYS = {"segment": _is_int, "from": _is_int, "to": _is_int, "mode": lambda x: x in ("service", "deadhead"),
+                   "metres": _is_num, "minutes": _is_num, "turn_minutes": _is_num}
+_SEGMENT_KEYS = {"id": _is_int, "from": _is_int, "to": _is_int, "length_m": _is_num,
+                 "service_min": _is_num, "deadhead_min": _is_num, "passes": lambda x: isinstance(x, dict)}
+
+
+def _shape_problem(plan: dict) -> str | None:
+    """The first record that is not shaped as crewcut writes it, so that no reader trips over it later."""
+    net = plan["network"]
+    if not isinstance(net, dict) or not isinstance(net.get("segments"), list) \
+            or not isinstance(net.get("nodes"), list):
+        return "the network section has no list of nodes and segments"
+    for i, seg in enumerate(net["segments"]):
+        bad = [k for k, ok in _SEGMENT_KEYS.items() if not (isinstance(seg, dict) and ok(seg.get(k)))]
+        if bad:
+            return f"segment record {i} lacks or mangles {', '.join(bad)}"
+    if not isinstance(plan["crews"], list):
+        return "'crews' is not a list"
+    for c in plan["crews"]:
+        if not (isinstance(c, dict) and isinstance(c.get("id"), str) and _is_int(c.get("depot_node"))
+                and _is_num(c.get("shift_limit_min")) and isinstance(c.get("territory"), list)
+                and all(_is_int(s) for s in c["territory"]) and isinstance(c.get("routes"), list)):
+            return f"crew record {c.get('id') if isinstance(c, dict) else c!r} lacks or mangles its id, depot, " \
+                   "shift limit, territory or routes"
+        for r in c["routes"]:
+            trs = r.get("traversals") if isinstance(r, dict) else None
+            if not isinstance(trs, list) or not isinstance(r.get("totals"), dict):
+                return f"crew '{c['id']}' has a route without traversals or totals"
+            for j, t in enumerate(trs):
+                bad = [k for k, ok in _TRAVERSAL_KEYS.items() if not (isinstance(t, dict) and ok(t.get(k)))]
+                if bad:
+                    return f"crew '{c['id']}' traversal {j} lacks or mangles {', '.join(bad)}"
+    return None
