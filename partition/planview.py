@@ -3,7 +3,7 @@
 The reports read nothing but the plan document (a dict as
 :func:`partition.planfile.read_plan` returns it). This module checks up front
 that the parts they use are there and consistent (every traversal names a known
-segment and node, every crew id is unique) and answers the questions all reports
+segment and node, every crew id is unique, coordinates are numbers) and answers the questions all reports
 ask: which crews, in which order, which points does a route pass in driving
 order, what is a node called. A malformed plan raises
 :class:`solve.errors.InputError` naming the crew, route or traversal at fault.
@@ -11,25 +11,15 @@ order, what is a node called. A malformed plan raises
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from functools import cached_property
+
+import numpy as np
 
 from solve.errors import InputError
+from solve.geodesy import project
+from solve.result import Traversal
 
 _FIX = "re-create the plan with 'crewcut plan' or 'crewcut route'"
-
-
-@dataclass(frozen=True)
-class Step:
-    """One traversal of a route, with the facts reports need."""
-
-    segment: int
-    from_node: int
-    to_node: int
-    service: bool
-    metres: float
-    minutes: float  # driving or service minutes, turn excluded
-    turn: str
-    turn_minutes: float
 
 
 class PlanView:
@@ -52,13 +42,19 @@ class PlanView:
         if self.traffic not in ("right", "left"):
             raise InputError(f"{name}: settings.profile.traffic is {self.traffic!r}", "it must be \"right\" or \"left\"")
         self.summary: dict = plan.get("summary") or {}
+        for i, n in enumerate(self.nodes):
+            if not isinstance(n, dict) or n.get("id") != i:
+                raise InputError(f"{name}: node at position {i} is malformed", "node ids must equal their positions; " + _FIX)
         for i, s in enumerate(self.segments):
             if not isinstance(s, dict) or s.get("id") != i:
                 raise InputError(f"{name}: segment at position {i} has id {s.get('id') if isinstance(s, dict) else s!r}",
                                  "segment ids must equal their positions; " + _FIX)
-        for i, n in enumerate(self.nodes):
-            if not isinstance(n, dict) or n.get("id") != i:
-                raise InputError(f"{name}: node at position {i} is malformed", "node ids must equal their positions; " + _FIX)
+            passes = s.get("passes") or {}
+            if (any(not isinstance(s.get(k), int) or not 0 <= s[k] < len(self.nodes) for k in ("from", "to"))
+                    or not isinstance(passes, dict) or any(not isinstance(v, int) for v in passes.values())):
+                raise InputError(f"{name}: segment {i} has end nodes or passes that are not in the plan", _FIX)
+        if self.has_geometry:
+            self._check_geometry()
         self.crews: list[dict] = _get(plan, "crews", list, name)
         seen: set[str] = set()
         for c in self.crews:
@@ -71,6 +67,29 @@ class PlanView:
             self._check_crew(c)
 
     # ------------------------------------------------------------ checks
+    def _check_geometry(self) -> None:
+        """Node and segment coordinates as finite float arrays (kept for the maps and exports)."""
+        where = f"{self.name}: network"
+        nodes = _float_pairs([[n.get("lon"), n.get("lat")] for n in self.nodes])
+        bad = np.flatnonzero(~np.isfinite(nodes).all(axis=1))
+        if bad.size:
+            raise InputError(f"{where}: node {int(bad[0])} has no valid lon/lat", _FIX)
+        counts, flat = [], []
+        for i, s in enumerate(self.segments):
+            c = s.get("coords")
+            if not isinstance(c, list) or len(c) < 2 or any(not isinstance(q, list) or len(q) != 2 for q in c):
+                raise InputError(f"{where}: segment {i} has no valid coordinates (a list of two or more "
+                                 f"[lon, lat])", _FIX)
+            counts.append(len(c))
+            flat.extend(c)
+        xy = _float_pairs(flat)
+        starts = np.concatenate([[0], np.cumsum(counts)]).astype(np.int64)
+        bad = np.flatnonzero(~np.isfinite(xy).all(axis=1))
+        if bad.size:
+            seg = int(np.searchsorted(starts, bad[0], side="right") - 1)
+            raise InputError(f"{where}: segment {seg} has a coordinate that is not a number", _FIX)
+        self._node_ll, self._vertices, self._starts = nodes, xy, starts
+
     def _check_crew(self, c: dict) -> None:
         where = f"{self.name}: crew '{c['id']}'"
         depot = c.get("depot_node")
@@ -92,7 +111,8 @@ class PlanView:
                     s, a, b = t["segment"], t["from"], t["to"]
                     seg = self.segments[s]
                     ok = {a, b} == {seg["from"], seg["to"]} and t["mode"] in ("service", "deadhead")
-                    ok = ok and math.isfinite(float(t["metres"])) and math.isfinite(float(t["minutes"]))
+                    ok = ok and all(math.isfinite(float(t.get(k, 0.0))) for k in ("metres", "minutes", "turn_minutes"))
+                    ok = ok and isinstance(t.get("turn", ""), str)
                 except (KeyError, TypeError, IndexError, ValueError):
                     ok = False
                 if not ok:
@@ -117,31 +137,41 @@ class PlanView:
                 out.append(by_id[cid])
         return out
 
-    def steps(self, route: dict) -> list[Step]:
-        return [Step(int(t["segment"]), int(t["from"]), int(t["to"]), t["mode"] == "service",
-                     float(t["metres"]), float(t["minutes"]), str(t.get("turn", "unknown")),
-                     float(t.get("turn_minutes", 0.0))) for t in route["traversals"]]
+    def steps(self, route: dict) -> list[Traversal]:
+        """The route's traversals as :class:`solve.result.Traversal` (the plan file's ``mode`` as ``service``)."""
+        return [Traversal(int(t["segment"]), int(t["from"]), int(t["to"]), t["mode"] == "service",
+                          float(t["metres"]), float(t["minutes"]), str(t.get("turn", "unknown")),
+                          float(t.get("turn_minutes", 0.0))) for t in route["traversals"]]
 
     def node_name(self, node: int) -> str:
         label = self.nodes[node].get("label") or ""
         return f"node {node}" + (f" ({label})" if label else "")
 
     def node_lonlat(self, node: int) -> tuple[float, float] | None:
-        n = self.nodes[node]
-        if n.get("lon") is None or n.get("lat") is None:
+        if not self.has_geometry:
             return None
-        return float(n["lon"]), float(n["lat"])
+        return float(self._node_ll[node, 0]), float(self._node_ll[node, 1])
 
     def seg_coords(self, seg: int, from_node: int | None = None) -> list[list[float]]:
         """Lon/lat vertices of a segment, in driving order when ``from_node`` is given."""
-        s = self.segments[seg]
-        coords = s.get("coords")
-        if coords is None:
-            self.need_geometry()
-        pts = [[float(x), float(y)] for x, y in coords]
-        if from_node is not None and from_node != s["from"]:
+        self.need_geometry()
+        pts = self._vertices[self._starts[seg]:self._starts[seg + 1]].tolist()
+        if from_node is not None and from_node != self.segments[seg]["from"]:
             pts.reverse()
         return pts
+
+    @cached_property
+    def projected(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """Every segment vertex and node in the plan's local projection (metres), computed once.
+
+        ``(x, y, starts, node_xy)``: the vertices of segment ``s`` are
+        ``x[starts[s]:starts[s + 1]]``; ``node_xy`` is an (n, 2) array.
+        """
+        self.need_geometry()
+        allp = np.concatenate([self._vertices, self._node_ll])
+        x, y = project(allp[:, 0], allp[:, 1], self.origin)
+        n = len(self._vertices)
+        return x[:n], y[:n], self._starts, np.stack([x[n:], y[n:]], 1)
 
     def route_coords(self, route: dict) -> list[list[float]]:
         """The route as one continuous lon/lat polyline in driving order (joints not repeated)."""
@@ -157,6 +187,19 @@ class PlanView:
         if not self.has_geometry:
             raise InputError(f"{self.name}: the plan's network has no coordinates (it came from an edge list)",
                              "maps, GeoJSON and GPX need coordinates; plan from GeoJSON or OpenStreetMap data")
+
+
+def _float_pairs(rows: list[list]) -> np.ndarray:
+    """An (n, 2) float array; a pair that is not two numbers becomes NaN (so the caller can name it)."""
+    try:
+        return np.array(rows, dtype=float).reshape(-1, 2)
+    except (TypeError, ValueError):
+        def pair(r):
+            try:
+                return [float(r[0]), float(r[1])]
+            except (TypeError, ValueError):
+                return [math.nan, math.nan]
+        return np.array([pair(r) for r in rows], dtype=float).reshape(-1, 2)
 
 
 def _get(d: dict, key: str, typ: type, where: str):

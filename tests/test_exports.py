@@ -153,3 +153,22 @@ def test_bad_input_exit_2_nothing_written_input_untouched(tmp_path, plan_path, c
     assert hashlib.sha256(open(plan_path, "rb").read()).hexdigest() == before
     # CSV needs no coordinates
     assert main(["export", str(flat), "--format", "csv"]) == 0
+
+
+@pytest.mark.parametrize("spoil, named", [
+    (lambda p: p["network"]["segments"][2].update(coords=None), "segment 2"),
+    (lambda p: p["network"]["segments"][2].update(coords=[[1.0, 2.0, 3.0]]), "segment 2"),
+    (lambda p: p["network"]["segments"][2]["coords"][0].__setitem__(0, "east"), "segment 2"),
+    (lambda p: p["network"]["nodes"][1].update(lon="x"), "node 1"),
+    (lambda p: p["crews"][0]["routes"][0]["traversals"][0].update(turn_minutes="x"), "traversal 0"),
+])
+def test_hand_edited_plan_is_a_clear_error(tmp_path, spoil, named, capsys):
+    # common practice, no source: a damaged plan file is refused with a message, not a traceback
+    p = make_plan(k=2)
+    spoil(p)
+    path = tmp_path / "plan.json"
+    path.write_text(json.dumps(p))
+    out = tmp_path / "out.gpx"
+    assert main(["export", str(path), "--format", "gpx", "--out", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert named in err and "Traceback" not in err and not out.exists()
