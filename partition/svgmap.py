@@ -24,8 +24,6 @@ import math
 
 import numpy as np
 
-from solve.geodesy import project
-
 from .planview import PlanView
 
 PALETTE = ("#2255aa", "#ff7711", "#66bbff", "#884411", "#9900ff", "#ddaa77", "#774477", "#8877ff")
@@ -54,14 +52,8 @@ class _Frame:
 
     def __init__(self, pv: PlanView, fit: list[int] | None = None) -> None:
         """Fit the drawing to segments ``fit`` (all segments when None)."""
-        pv.need_geometry()
-        segs = pv.segments
-        counts = [len(s["coords"]) for s in segs]
-        pts = np.array([p for s in segs for p in s["coords"]], float).reshape(-1, 2)
-        node_ll = np.array([[n["lon"], n["lat"]] for n in pv.nodes], float).reshape(-1, 2)
-        allp = np.concatenate([pts, node_ll])
-        x, y = project(allp[:, 0], allp[:, 1], pv.origin)
-        starts = np.concatenate([[0], np.cumsum(counts)]).astype(np.int64)
+        x, y, starts, node_xy = pv.projected  # projected once per plan, shared by every map of it
+        x, y = np.concatenate([x, node_xy[:, 0]]), np.concatenate([y, node_xy[:, 1]])
         if fit:
             sel = np.concatenate([np.arange(starts[s], starts[s + 1]) for s in sorted(set(fit))])
             fx, fy = x[sel], y[sel]
@@ -75,15 +67,16 @@ class _Frame:
         self.height = max(self.height, 300)
         px = (x - self.x0) * self.scale + MARGIN
         py = (self.y1 - y) * self.scale + MARGIN + 30  # room for the title
-        n = len(pts)
-        self.seg_px = [np.stack([px[a:b], py[a:b]], 1) for a, b in zip(starts[:-1], starts[1:])]
+        n = int(starts[-1])
+        self._px = np.stack([px[:n], py[:n]], 1)
+        self._starts = starts
         self.node_px = np.stack([px[n:], py[n:]], 1)
         # segments with a vertex on the canvas (the others are left out of zoomed maps)
-        on = (px >= 0) & (px <= WIDTH) & (py >= 0) & (py <= self.height)
-        self.visible = [bool(on[a:b].any()) for a, b in zip(starts[:-1], starts[1:])]
+        on = (px[:n] >= 0) & (px[:n] <= WIDTH) & (py[:n] >= 0) & (py[:n] <= self.height)
+        self.visible = np.logical_or.reduceat(on, starts[:-1]).tolist() if n else []
 
     def seg(self, s: int, reverse: bool = False) -> np.ndarray:
-        p = self.seg_px[s]
+        p = self._px[self._starts[s]:self._starts[s + 1]]
         return p[::-1] if reverse else p
 
 
