@@ -599,8 +599,9 @@ def town_config(town: dict) -> str:
         cut -= 1  # drop the comment that introduces the shipped crews
     head = "\n".join(lines[:cut]).rstrip() + "\n"
     (l1, d1), (l2, d2) = town_depots(town)
-    # Eleven crews: the example town's curbs take about 77 crew-hours to sweep, so
-    # eleven 8-hour shifts fit; six work from the downtown yard, five from the other.
+    # Eleven crews: the example town's curbs take 67 h of sweeping alone and about
+    # 79 crew-hours once planned (crewcut plan, measured), so eleven 8-hour shifts
+    # fit; six work from the downtown yard, five from the other.
     crews = [(f"sweeper-{i + 1}", d1, l1) if i < 6 else (f"sweeper-{i + 1}", d2, l2) for i in range(11)]
     out = [f"# Curb sweeping in {TOWN_NAME}, an invented town ({len(town['features']):,} street segments,",
            f"# seed {town['town']['seed']}), written by solve.towngen.town_config. Not a real place.",
