@@ -13,6 +13,7 @@ gives the same bytes.
 from __future__ import annotations
 
 import json
+import math
 import os
 import tempfile
 from dataclasses import dataclass, field
@@ -183,7 +184,7 @@ def read_plan(path: str | Path) -> dict:
     for key in ("network", "crews", "settings"):
         if key not in plan:
             raise InputError(f"{path}: plan file has no '{key}' section")
-    problem = _shape_problem(plan)
+    problem = record_problem(plan)
     if problem:
         raise InputError(f"{path}: damaged plan file: {problem}",
                          "re-plan, or restore the file as crewcut wrote it")
@@ -198,36 +199,66 @@ def _is_num(x) -> bool:
     return isinstance(x, (int, float)) and not isinstance(x, bool)
 
 
+def _is_finite(x) -> bool:
+    return _is_num(x) and math.isfinite(x)
+
+
 _TRAVERSAL_KEYS = {"segment": _is_int, "from": _is_int, "to": _is_int, "mode": lambda x: x in ("service", "deadhead"),
-                   "metres": _is_num, "minutes": _is_num, "turn_minutes": _is_num}
-_SEGMENT_KEYS = {"id": _is_int, "from": _is_int, "to": _is_int, "length_m": _is_num,
-                 "service_min": _is_num, "deadhead_min": _is_num, "passes": lambda x: isinstance(x, dict)}
+                   "metres": _is_finite, "minutes": _is_finite, "turn_minutes": _is_finite}
+_SEGMENT_KEYS = {"id": _is_int, "from": _is_int, "to": _is_int, "length_m": _is_finite,
+                 "service_min": _is_finite, "deadhead_min": _is_finite,
+                 "passes": lambda x: isinstance(x, dict) and all(_is_int(v) for v in x.values())}
 
 
-def _shape_problem(plan: dict) -> str | None:
-    """The first record that is not shaped as crewcut writes it, so that no reader trips over it later."""
-    net = plan["network"]
+def record_problem(plan: dict) -> str | None:
+    """The first record not shaped or linked as crewcut writes it; None when all are sound.
+
+    The one structural check of a plan document, shared by :func:`read_plan` and the
+    reports: types, ids equal to positions, end nodes, depots, territories and
+    traversals that point at existing nodes and segments, unique crew ids.
+    """
+    net = plan.get("network")
     if not isinstance(net, dict) or not isinstance(net.get("segments"), list) \
             or not isinstance(net.get("nodes"), list):
         return "the network section has no list of nodes and segments"
-    for i, seg in enumerate(net["segments"]):
+    nodes, segs = net["nodes"], net["segments"]
+    for i, n in enumerate(nodes):
+        if not isinstance(n, dict) or n.get("id") != i:
+            return f"node {i} is malformed (node ids must equal their positions)"
+    for i, seg in enumerate(segs):
         bad = [k for k, ok in _SEGMENT_KEYS.items() if not (isinstance(seg, dict) and ok(seg.get(k)))]
         if bad:
-            return f"segment record {i} lacks or mangles {', '.join(bad)}"
-    if not isinstance(plan["crews"], list):
+            return f"segment {i} lacks or mangles {', '.join(bad)}"
+        if seg["id"] != i or not (0 <= seg["from"] < len(nodes) and 0 <= seg["to"] < len(nodes)):
+            return f"segment {i} has an id or end nodes that are not in the plan"
+    crews = plan.get("crews")
+    if not isinstance(crews, list):
         return "'crews' is not a list"
-    for c in plan["crews"]:
-        if not (isinstance(c, dict) and isinstance(c.get("id"), str) and _is_int(c.get("depot_node"))
+    seen: set[str] = set()
+    for c in crews:
+        cid = c.get("id") if isinstance(c, dict) else None
+        if not isinstance(cid, str) or not cid:
+            return "a crew record has no id"
+        if cid in seen:
+            return f"crew id '{cid}' appears twice"
+        seen.add(cid)
+        if not (_is_int(c.get("depot_node")) and 0 <= c["depot_node"] < len(nodes)
                 and _is_num(c.get("shift_limit_min")) and isinstance(c.get("territory"), list)
-                and all(_is_int(s) for s in c["territory"]) and isinstance(c.get("routes"), list)):
-            return f"crew record {c.get('id') if isinstance(c, dict) else c!r} lacks or mangles its id, depot, " \
-                   "shift limit, territory or routes"
+                and all(_is_int(s) and 0 <= s < len(segs) for s in c["territory"])
+                and isinstance(c.get("routes"), list)):
+            return f"crew '{cid}' lacks or mangles its depot, shift limit, territory or routes"
         for r in c["routes"]:
+            rid = r.get("id", "?") if isinstance(r, dict) else "?"
             trs = r.get("traversals") if isinstance(r, dict) else None
             if not isinstance(trs, list) or not isinstance(r.get("totals"), dict):
-                return f"crew '{c['id']}' has a route without traversals or totals"
+                return f"crew '{cid}' route '{rid}' has no traversals or totals"
             for j, t in enumerate(trs):
                 bad = [k for k, ok in _TRAVERSAL_KEYS.items() if not (isinstance(t, dict) and ok(t.get(k)))]
                 if bad:
-                    return f"crew '{c['id']}' traversal {j} lacks or mangles {', '.join(bad)}"
+                    return f"crew '{cid}' route '{rid}': traversal {j} lacks or mangles {', '.join(bad)}"
+                if not 0 <= t["segment"] < len(segs) or {t["from"], t["to"]} != {segs[t["segment"]]["from"],
+                                                                                  segs[t["segment"]]["to"]}:
+                    return f"crew '{cid}' route '{rid}': traversal {j} does not match its segment's end nodes"
+                if not isinstance(t.get("turn", ""), str):
+                    return f"crew '{cid}' route '{rid}': traversal {j} has a turn that is not text"
     return None

@@ -19,6 +19,8 @@ from solve.errors import InputError
 from solve.geodesy import project
 from solve.result import Traversal
 
+from .planfile import record_problem
+
 _FIX = "re-create the plan with 'crewcut plan' or 'crewcut route'"
 
 
@@ -42,29 +44,12 @@ class PlanView:
         if self.traffic not in ("right", "left"):
             raise InputError(f"{name}: settings.profile.traffic is {self.traffic!r}", "it must be \"right\" or \"left\"")
         self.summary: dict = plan.get("summary") or {}
-        for i, n in enumerate(self.nodes):
-            if not isinstance(n, dict) or n.get("id") != i:
-                raise InputError(f"{name}: node at position {i} is malformed", "node ids must equal their positions; " + _FIX)
-        for i, s in enumerate(self.segments):
-            if not isinstance(s, dict) or s.get("id") != i:
-                raise InputError(f"{name}: segment at position {i} has id {s.get('id') if isinstance(s, dict) else s!r}",
-                                 "segment ids must equal their positions; " + _FIX)
-            passes = s.get("passes") or {}
-            if (any(not isinstance(s.get(k), int) or not 0 <= s[k] < len(self.nodes) for k in ("from", "to"))
-                    or not isinstance(passes, dict) or any(not isinstance(v, int) for v in passes.values())):
-                raise InputError(f"{name}: segment {i} has end nodes or passes that are not in the plan", _FIX)
+        problem = record_problem(plan)  # the one structural check, shared with read_plan
+        if problem:
+            raise InputError(f"{name}: {problem}", _FIX)
         if self.has_geometry:
             self._check_geometry()
-        self.crews: list[dict] = _get(plan, "crews", list, name)
-        seen: set[str] = set()
-        for c in self.crews:
-            cid = c.get("id") if isinstance(c, dict) else None
-            if not isinstance(cid, str) or not cid:
-                raise InputError(f"{name}: a crew has no id", _FIX)
-            if cid in seen:
-                raise InputError(f"{name}: crew id '{cid}' appears twice", "crew ids must be unique; " + _FIX)
-            seen.add(cid)
-            self._check_crew(c)
+        self.crews: list[dict] = plan["crews"]
 
     # ------------------------------------------------------------ checks
     def _check_geometry(self) -> None:
@@ -89,35 +74,6 @@ class PlanView:
             seg = int(np.searchsorted(starts, bad[0], side="right") - 1)
             raise InputError(f"{where}: segment {seg} has a coordinate that is not a number", _FIX)
         self._node_ll, self._vertices, self._starts = nodes, xy, starts
-
-    def _check_crew(self, c: dict) -> None:
-        where = f"{self.name}: crew '{c['id']}'"
-        depot = c.get("depot_node")
-        if not isinstance(depot, int) or not 0 <= depot < len(self.nodes):
-            raise InputError(f"{where}: depot node {depot!r} is not a node of the plan", _FIX)
-        terr = c.get("territory")
-        if not isinstance(terr, list) or any(not isinstance(s, int) or not 0 <= s < len(self.segments) for s in terr):
-            raise InputError(f"{where}: territory lists a segment id that is not in the plan", _FIX)
-        routes = c.get("routes")
-        if not isinstance(routes, list):
-            raise InputError(f"{where}: no 'routes' list", _FIX)
-        for r in routes:
-            rid = r.get("id", "?") if isinstance(r, dict) else "?"
-            trav = r.get("traversals") if isinstance(r, dict) else None
-            if not isinstance(trav, list):
-                raise InputError(f"{where}, route '{rid}': no 'traversals' list", _FIX)
-            for k, t in enumerate(trav):
-                try:
-                    s, a, b = t["segment"], t["from"], t["to"]
-                    seg = self.segments[s]
-                    ok = {a, b} == {seg["from"], seg["to"]} and t["mode"] in ("service", "deadhead")
-                    ok = ok and all(math.isfinite(float(t.get(k, 0.0))) for k in ("metres", "minutes", "turn_minutes"))
-                    ok = ok and isinstance(t.get("turn", ""), str)
-                except (KeyError, TypeError, IndexError, ValueError):
-                    ok = False
-                if not ok:
-                    raise InputError(f"{where}, route '{rid}': traversal {k} is malformed or does not match "
-                                     f"its segment's endpoints", _FIX)
 
     # ------------------------------------------------------------ lookups
     def crew_ids(self) -> list[str]:
