@@ -25,7 +25,7 @@ from solve.costs import Passes, deadhead_minutes, required_passes, service_minut
 from solve.errors import InputError
 from solve.network import SERVICE_LABELS, Network
 from solve.profile import Profile
-from solve.result import Route
+from solve.result import Route, RouteTotals, Traversal
 
 FORMAT = "crewcut-plan"
 VERSION = 1
@@ -100,6 +100,22 @@ def route_section(route: Route, route_id: str = "route-1") -> dict:
                         "turn": x.turn, "turn_minutes": _r(x.turn_minutes, 5)}
                        for x in route.traversals],
     }
+
+
+def traversals_from_section(rec: dict) -> tuple[Traversal, ...]:
+    """A route section's traversals back as :class:`solve.result.Traversal` (inverse of :func:`route_section`)."""
+    return tuple(Traversal(int(t["segment"]), int(t["from"]), int(t["to"]), t["mode"] == "service",
+                           float(t["metres"]), float(t["minutes"]), str(t.get("turn", "unknown")),
+                           float(t.get("turn_minutes", 0.0))) for t in rec["traversals"])
+
+
+def route_from_section(rec: dict, depot: int) -> Route:
+    """A route section back as a :class:`solve.result.Route` (inverse of :func:`route_section`)."""
+    tot = rec["totals"]
+    totals = RouteTotals(**{k: tot[k] for k in ("service_km", "service_min", "deadhead_km", "deadhead_min",
+                                                "turn_min", "total_min", "u_turns", "across_turns")})
+    return Route(depot, traversals_from_section(rec), totals, str(rec.get("method", "")),
+                 bool(rec.get("exact", False)), float(rec.get("lower_bound_min", 0.0)))
 
 
 def build_plan(net: Network, profile: Profile, crews: list[CrewPlan], *, source: str = "",

@@ -19,7 +19,7 @@ from solve.errors import InputError
 from solve.geodesy import project
 from solve.result import Traversal
 
-from .planfile import record_problem
+from .planfile import record_problem, traversals_from_section
 
 _FIX = "re-create the plan with 'crewcut plan' or 'crewcut route'"
 
@@ -95,9 +95,7 @@ class PlanView:
 
     def steps(self, route: dict) -> list[Traversal]:
         """The route's traversals as :class:`solve.result.Traversal` (the plan file's ``mode`` as ``service``)."""
-        return [Traversal(int(t["segment"]), int(t["from"]), int(t["to"]), t["mode"] == "service",
-                          float(t["metres"]), float(t["minutes"]), str(t.get("turn", "unknown")),
-                          float(t.get("turn_minutes", 0.0))) for t in route["traversals"]]
+        return list(traversals_from_section(route))
 
     def node_name(self, node: int) -> str:
         label = self.nodes[node].get("label") or ""

@@ -87,10 +87,10 @@ from solve.costs import deadhead_minutes, service_minutes
 from solve.errors import InputError
 from solve.network import SERVICE_LABELS, Network, RawLine
 from solve.profile import Profile
-from solve.result import Route, RouteTotals, Traversal
+from solve.result import Route
 
 from .balance import FleetState, balance
-from .planfile import CrewPlan, build_plan, dumps
+from .planfile import CrewPlan, build_plan, dumps, route_from_section
 from .planner import fleet_summary
 from .routing import LocalRouter, RouteJob, Router, check_workers
 from .streets import StreetGraph, build_street_graph, depot_travel, round_trips
@@ -427,17 +427,6 @@ def _check_depots(today: Network, crews: list[DayCrew], closed: np.ndarray, elig
 
 
 # ============================================================================ territories of the day
-def _route_from_json(rec: dict, depot: int) -> Route:
-    trs = tuple(Traversal(int(t["segment"]), int(t["from"]), int(t["to"]), t["mode"] == "service",
-                          float(t["metres"]), float(t["minutes"]), str(t.get("turn", "start")),
-                          float(t.get("turn_minutes", 0.0))) for t in rec["traversals"])
-    tot = rec["totals"]
-    totals = RouteTotals(**{k: tot[k] for k in ("service_km", "service_min", "deadhead_km", "deadhead_min",
-                                                "turn_min", "total_min", "u_turns", "across_turns")})
-    return Route(depot, trs, totals, str(rec.get("method", "")), bool(rec.get("exact", False)),
-                 float(rec.get("lower_bound_min", 0.0)))
-
-
 def _centres(sg: StreetGraph, owner: np.ndarray, k: int) -> np.ndarray:
     out = np.zeros((k, 2))
     for c, segs in enumerate(territories_of(owner, k)):
@@ -698,7 +687,7 @@ def rebalance_plan(plan: dict, net: Network, *, absent: Sequence[str] = (),
         jobs, which = [], []
         for i, c in enumerate(crews):
             if c.old >= 0 and _keeps_route(old[c.old], terr[i], c.depot, today):
-                routes[i] = _route_from_json(old[c.old]["routes"][0], c.depot)
+                routes[i] = route_from_section(old[c.old]["routes"][0], c.depot)
             else:
                 jobs.append(RouteJob.of(c.depot, terr[i], seed))
                 which.append(i)
