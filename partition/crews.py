@@ -93,11 +93,6 @@ def resolve_crews(net: Network, profile: Profile, *, k: int | None = None,
 def _crew_depot(net: Network, profile: Profile, crew) -> int:
     who = f"depot of crew '{crew.id}'"
     if crew.depot_node is not None:
-        node = check_depot_node(net, int(crew.depot_node), who=who)
-        touching = (~net.seg_closed) & ((net.seg_u == node) | (net.seg_v == node))
-        if not touching.any():
-            raise InputError(f"{who}: node {node} touches no usable street",
-                             "pick a node on an open street as depot_node, or give depot = [lon, lat]")
-        return node
+        return check_depot_node(net, crew.depot_node, who=who, usable=True)
     lon, lat = crew.depot_lonlat
     return snap_depot(net, lon, lat, profile.depot_snap_max_m, who=who)

@@ -58,6 +58,7 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.csgraph import dijkstra
 
+from .depot import check_depot_node
 from .errors import InputError
 from .eulerize import augmentation_lower_bound
 from .network import Network
@@ -68,12 +69,7 @@ from .tasks import build_deadhead, build_tasks
 def _check_depots(net: Network, depots) -> list[int]:
     if isinstance(depots, (numbers.Integral, np.integer)):
         depots = [depots]
-    out = []
-    for d in depots:
-        if isinstance(d, bool) or not isinstance(d, (numbers.Integral, np.integer)) or not 0 <= d < net.n_nodes:
-            raise InputError(f"depot node {d!r} is not in the network (0..{net.n_nodes - 1})",
-                             "snap depots to the network with solve.depot.snap_depot")
-        out.append(int(d))
+    out = [check_depot_node(net, d) for d in depots]
     if not out:
         raise InputError("no depot given", "give at least one depot node")
     return sorted(set(out))

@@ -1,6 +1,10 @@
 """Placing a depot on the network."""
 from __future__ import annotations
 
+import numbers
+
+import numpy as np
+
 from .errors import InputError
 from .network import Network
 
@@ -25,7 +29,21 @@ def snap_depot(net: Network, lon: float, lat: float, max_m: float, who: str = "d
     return node
 
 
-def check_depot_node(net: Network, node: int, who: str = "depot") -> int:
-    if not (0 <= node < net.n_nodes):
-        raise InputError(f"{who}: node {node} does not exist (the network has nodes 0 to {net.n_nodes - 1})")
+def check_depot_node(net: Network, node, who: str = "depot", usable: bool = False) -> int:
+    """``node`` as an int when it is a node of ``net`` (and, with ``usable``, touches an open street).
+
+    The one depot check of the package: the command line, the route engine and the
+    bounds all call it.
+    """
+    if isinstance(node, bool) or not isinstance(node, (numbers.Integral, np.integer)):
+        raise InputError(f"{who} must be a node id (an integer), got {node!r}")
+    node = int(node)
+    if not 0 <= node < net.n_nodes:
+        raise InputError(f"{who} node {node} does not exist (the network has nodes 0 to {net.n_nodes - 1})",
+                         "give an existing node id, or place the depot by lon/lat")
+    if usable:
+        open_ = ~net.seg_closed
+        if not ((net.seg_u[open_] == node).any() or (net.seg_v[open_] == node).any()):
+            raise InputError(f"{who} node {node} ('{net.node_label[node]}') touches no usable street",
+                             "place the depot on an open street")
     return node

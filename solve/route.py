@@ -37,22 +37,9 @@ from .eulerize import augmented_arcs, eulerize
 from .network import Network
 from .profile import Profile
 from .result import TURNS, Augmentation, Route, RouteTotals, Traversal
+from .depot import check_depot_node
 from .tasks import DeadheadArcs, TaskSet, build_deadhead, build_tasks
 from .turns import TurnModel
-
-
-def _check_depot(net: Network, depot) -> int:
-    if isinstance(depot, bool) or not isinstance(depot, numbers.Integral):
-        raise InputError(f"depot must be a node id (an integer), got {depot!r}")
-    depot = int(depot)
-    if not 0 <= depot < net.n_nodes:
-        raise InputError(f"depot node {depot} does not exist (the network has nodes 0 to {net.n_nodes - 1})",
-                         "give an existing node id, or place the depot by lon/lat")
-    open_ = ~net.seg_closed
-    if not ((net.seg_u[open_] == depot).any() or (net.seg_v[open_] == depot).any()):
-        raise InputError(f"depot node {depot} ('{net.node_label[depot]}') touches no usable street",
-                         "place the depot on an open street")
-    return depot
 
 
 def _check_segments(net: Network, segments) -> np.ndarray | None:
@@ -167,7 +154,7 @@ def plan_route(net: Network, profile: Profile, depot: int, segments=None, *, tur
     Raises :class:`InputError` for a depot or segment that does not exist, a
     closed segment to serve, or streets the crew cannot reach and leave.
     """
-    depot = _check_depot(net, depot)
+    depot = check_depot_node(net, depot, usable=True)
     seg_sel = _check_segments(net, segments)
     _check_params(time_limit_s, seed)
 

@@ -45,7 +45,7 @@ def depot_from_args(args, net: Network, profile: Profile) -> tuple[int, str, Cre
         if crew.depot_lonlat is not None:
             node = snap_depot(net, *crew.depot_lonlat, profile.depot_snap_max_m, who=who)
         else:
-            node = check_depot_node(net, int(crew.depot_node), who=who)
+            node = check_depot_node(net, crew.depot_node, who=who, usable=True)
         return node, f"node {node} (crew '{crew.id}' in {profile.source})", crew
     return None
 
