@@ -9,7 +9,7 @@ from solve.check import CheckReport, check_network
 from solve.profile import load_profile
 from solve.readers import read_network
 
-from .common import add_network_arguments, depot_from_args
+from .common import add_network_arguments, depot_from_args, measure_table
 
 NAME = "check"
 HELP = "load a street network, repair its topology and report what would stop planning"
@@ -48,10 +48,7 @@ def _print(ui, path, profile_name: str, depot_text: str, r: CheckReport) -> None
     t.add_row("[bold]total[/]", f"{r.segments:,}", f"{r.km:,.2f}", f"{r.oneway_km:,.2f}", f"{r.passes:,}",
               f"{r.required_km:,.2f}")
     out.print(t)
-    s = Table(title="Network", title_justify="left")
-    s.add_column("measure")
-    s.add_column("value", justify="right")
-    s.add_column("unit")
+    s = measure_table("Network")
     for label, value, unit in (
             ("intersections and street ends", f"{r.nodes:,}", "nodes"),
             ("closed streets", f"{r.closed_segments:,}", "segments"),

@@ -66,3 +66,40 @@ def stage_progress(ui):
             bar.update(tasks[stage], completed=done, total=total, description=desc)
 
         yield progress
+
+
+def add_run_arguments(parser: argparse.ArgumentParser) -> None:
+    """--seed, --workers and --time-limit, worded the same for plan and rebalance."""
+    parser.add_argument("--seed", metavar="N", type=int, default=0,
+                        help="seed for every random choice; same input and seed, same plan (default 0)")
+    parser.add_argument("--workers", metavar="N", type=int, default=None,
+                        help="processes routing territories in parallel (default: all cores)")
+    parser.add_argument("--time-limit", metavar="SECONDS", type=float, default=None,
+                        help="wall-clock time the balancer may take (default: no limit; it stops at its "
+                             "tolerance or iteration limit, so the same input and seed give the same plan); "
+                             "a plan cut short by a time limit may differ between machines")
+
+
+def measure_table(title: str):
+    """An empty rich table with the columns measure, value, unit."""
+    from rich.table import Table
+
+    t = Table(title=title, title_justify="left")
+    t.add_column("measure")
+    t.add_column("value", justify="right")
+    t.add_column("unit")
+    return t
+
+
+def write_or_print(ui, out: str | None, text: str) -> int:
+    """Write ``text`` atomically to ``out`` and say so, or to stdout when no file is given."""
+    import sys
+
+    from ..planfile import atomic_write
+
+    if out:
+        atomic_write(out, text)
+        ui.out.print(f"wrote {out}")
+    else:
+        sys.stdout.write(text)
+    return 0

@@ -1,10 +1,9 @@
 """``crewcut export PLAN --format geojson|gpx|csv``: the plan for GIS and navigation devices."""
 from __future__ import annotations
 
-import sys
 
 from ..exports import FORMATS, export
-from ..planfile import atomic_write
+from .common import write_or_print
 from ..planview import load
 
 NAME = "export"
@@ -20,9 +19,4 @@ def add_arguments(p) -> None:
 def run(args, ui) -> int:
     pv = load(args.plan)
     text = export(pv, args.format)
-    if args.out:
-        atomic_write(args.out, text)
-        ui.out.print(f"wrote {args.out}")
-    else:
-        sys.stdout.write(text)
-    return 0
+    return write_or_print(ui, args.out, text)

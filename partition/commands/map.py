@@ -1,9 +1,8 @@
 """``crewcut map PLAN``: an SVG map of the crews' territories, or of one crew's route."""
 from __future__ import annotations
 
-import sys
 
-from ..planfile import atomic_write
+from .common import write_or_print
 from ..planview import load
 from ..svgmap import route_svg, territory_svg
 
@@ -20,9 +19,4 @@ def add_arguments(p) -> None:
 def run(args, ui) -> int:
     pv = load(args.plan)
     svg = route_svg(pv, pv.select([args.crew])[0]) if args.crew else territory_svg(pv)
-    if args.out:
-        atomic_write(args.out, svg)
-        ui.out.print(f"wrote {args.out}")
-    else:
-        sys.stdout.write(svg)
-    return 0
+    return write_or_print(ui, args.out, svg)

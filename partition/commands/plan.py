@@ -5,7 +5,7 @@ import argparse
 import time
 from pathlib import Path
 
-from .common import add_network_arguments, out_folder, stage_progress
+from .common import add_network_arguments, add_run_arguments, out_folder, stage_progress
 
 NAME = "plan"
 HELP = "split a street network into balanced territories, one per crew, and route every crew"
@@ -18,14 +18,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--depot", metavar="LON,LAT", help="the shared depot of --crews K")
     parser.add_argument("--crew", metavar="ID", action="append", default=None,
                         help="plan only for this crew of the config (repeat for several)")
-    parser.add_argument("--seed", metavar="N", type=int, default=0,
-                        help="seed for every random choice; same input and seed, same plan (default 0)")
-    parser.add_argument("--workers", metavar="N", type=int, default=None,
-                        help="processes routing territories in parallel (default: all cores)")
-    parser.add_argument("--time-limit", metavar="SECONDS", type=float, default=None,
-                        help="wall-clock time the balancer may take (default: no limit; it stops at its "
-                             "tolerance or iteration limit, so the same input and seed give the same plan); "
-                             "a plan cut short by a time limit may differ between machines")
+    add_run_arguments(parser)
     parser.add_argument("--out", metavar="DIR", default="crewcut-out",
                         help="folder for plan.json (default ./crewcut-out)")
 

@@ -14,7 +14,7 @@ import re
 import time
 from pathlib import Path
 
-from .common import out_folder, stage_progress
+from .common import add_run_arguments, out_folder, stage_progress
 
 NAME = "rebalance"
 HELP = "re-plan for the day's changes (absent or extra crews, closed or new streets, shorter shifts), changing little"
@@ -47,14 +47,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                       help="when the work does not fit the shift limits, defer the lowest-priority streets")
     over.add_argument("--overtime", action="store_true",
                       help="when the work does not fit the shift limits, keep it all and report each crew's overtime")
-    parser.add_argument("--seed", metavar="N", type=int, default=0,
-                        help="seed for every random choice; same input and seed, same plan (default 0)")
-    parser.add_argument("--workers", metavar="N", type=int, default=None,
-                        help="processes routing territories in parallel (default: all cores)")
-    parser.add_argument("--time-limit", metavar="SECONDS", type=float, default=None,
-                        help="wall-clock time the balancer may take (default: no limit, so the same input and "
-                             "seed give the same plan); a plan cut short by a time limit may differ between "
-                             "machines")
+    add_run_arguments(parser)
     parser.add_argument("--out", metavar="DIR",
                         help="folder for the new plan.json (default: a new folder rebalanced-N next to PLAN)")
 

@@ -14,7 +14,7 @@ from solve.readers import read_network
 from solve.route import plan_route
 
 from ..planfile import CrewPlan, build_plan, write_plan
-from .common import add_network_arguments, depot_from_args, out_folder
+from .common import add_network_arguments, depot_from_args, measure_table, out_folder
 
 NAME = "route"
 HELP = "plan one crew's route over the whole network and write it as a plan file"
@@ -93,10 +93,7 @@ def _print(ui, source, profile_name: str, depot_text: str, route, path: Path) ->
                 f"{t.total_min:,.1f}")
     out.print(tab)
 
-    q = Table(title="Quality", title_justify="left")
-    q.add_column("measure")
-    q.add_column("value", justify="right")
-    q.add_column("unit")
+    q = measure_table("Quality")
     q.add_row("method", route.method, "")
     q.add_row("deadhead proven least", "yes" if route.exact else "no (heuristic)", "")
     q.add_row("lower bound (service, deadhead, forced turns)", f"{route.lower_bound_min:,.1f}", "min")
