@@ -122,7 +122,8 @@ def _passes(net, ignore_oneway: bool) -> list[tuple[int, str]]:
     return out
 
 
-def _brute_force(net, prof, depot: int, weight_turns_only: bool) -> tuple[float, float] | None:
+def _brute_force(net, prof, depot: int, weight_turns_only: bool,
+                 passes: list[tuple[int, str]] | None = None) -> tuple[float, float] | None:
     """Exhaustive search (Dijkstra over walk states) for the best closed walk from ``depot``.
 
     State: node, the traversal just driven (segment, direction) and the passes
@@ -130,6 +131,7 @@ def _brute_force(net, prof, depot: int, weight_turns_only: bool) -> tuple[float,
     deadhead or serving one matching pass. Returns (objective, turn minutes of
     that walk) for the least total minutes, or the least turn minutes when
     ``weight_turns_only``; None when no closed walk serves everything.
+    ``passes``: the passes to serve (default: every required pass).
     Exhaustive search is common practice, no source; turn kinds come from
     solve.turns, the same rule the routes are charged by.
     """
@@ -141,7 +143,7 @@ def _brute_force(net, prof, depot: int, weight_turns_only: bool) -> tuple[float,
     model = TurnModel.from_network(net, prof)
     tail, head, seg, fwd = net.arcs(prof.ignore_oneway)
     dm, sm = deadhead_minutes(net, prof), service_minutes(net, prof)
-    passes = _passes(net, prof.ignore_oneway)
+    passes = _passes(net, prof.ignore_oneway) if passes is None else passes
     kinds = sorted(set(passes))
     need = tuple(passes.count(x) for x in kinds)
     out_of: dict[int, list[int]] = {}
@@ -198,6 +200,42 @@ def test_turn_bound_below_brute_force_optimum():
         assert turn_lower_bound(net, prof, 1) <= least_turns[0] + 1e-9
         assert single_crew_lower_bound(net, prof) <= least_total[0] + 1e-6
         assert fleet_lower_bound(net, prof, [depot], 1) <= least_total[0] + 1e-6
+        checked += 1
+    assert checked >= 15
+
+
+def test_two_crew_bound_below_brute_force_optimum():
+    """The min-max bound for two crews from one depot never exceeds the true optimum.
+
+    The optimum is found exhaustively: every split of the required passes in two,
+    each part served by the best closed walk (exhaustive search, common practice,
+    no source). This checks the node-matching turn rule, where the two routes'
+    last arrivals at the depot need no successor.
+    """
+    import itertools
+
+    rng = np.random.default_rng(2006)
+    checked = 0
+    for _ in range(80):
+        net = _geo_network(rng, int(rng.integers(3, 6)))
+        passes = _passes(net, False)
+        if not 2 <= len(passes) <= 5:
+            continue
+        prof = metre_profile()
+        depot = int(rng.integers(0, net.n_nodes))
+        best = np.inf
+        for r in range(len(passes) + 1):
+            for part in itertools.combinations(range(len(passes)), r):
+                a = [passes[i] for i in part]
+                b = [passes[i] for i in range(len(passes)) if i not in part]
+                ra = _brute_force(net, prof, depot, False, a) if a else (0.0, 0.0)
+                rb = _brute_force(net, prof, depot, False, b) if b else (0.0, 0.0)
+                if ra is None or rb is None:
+                    continue
+                best = min(best, max(ra[0], rb[0]))
+        if not np.isfinite(best):
+            continue
+        assert fleet_lower_bound(net, prof, [depot], 2) <= best + 1e-6
         checked += 1
     assert checked >= 15
 
