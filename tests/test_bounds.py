@@ -155,7 +155,6 @@ def _brute_force(net, prof, depot: int, weight_turns_only: bool,
             turn_min[i, j] = float(model.pair_seconds([seg[i]], [fwd[i]], [seg[j]], [fwd[j]])[0]) / 60.0
     start = (depot, -1, need)
     best = {start: 0.0}
-    turns_of = {start: 0.0}
     heap = [(0.0, 0.0, start)]
     while heap:
         cost, tm, state = heapq.heappop(heap)
