@@ -178,6 +178,34 @@ def atomic_write(path: str | Path, text: str | bytes) -> Path:
     return path
 
 
+def atomic_write_many(files: list[tuple[str | Path, str | bytes]]) -> list[Path]:
+    """Write several files all or none: every temporary file first, the renames last.
+
+    A failure while writing (a full disk, a folder that cannot be made) removes
+    the temporary files and leaves none of the files behind.
+    """
+    done: list[tuple[str, Path]] = []
+    try:
+        for path, text in files:
+            path = Path(path)
+            path.parent.mkdir(parents=True, exist_ok=True)
+            data = text.encode("utf-8") if isinstance(text, str) else text
+            fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
+            done.append((tmp, path))
+            with os.fdopen(fd, "wb") as fh:
+                fh.write(data)
+            umask = os.umask(0)
+            os.umask(umask)
+            os.chmod(tmp, 0o666 & ~umask)
+    except BaseException:
+        for tmp, _ in done:
+            Path(tmp).unlink(missing_ok=True)
+        raise
+    for tmp, path in done:
+        os.replace(tmp, path)
+    return [p for _, p in done]
+
+
 def write_plan(plan: dict, path: str | Path) -> Path:
     return atomic_write(path, dumps(plan))
 

@@ -6,7 +6,7 @@ from pathlib import Path
 
 from solve.errors import InputError
 
-from ..planfile import atomic_write
+from ..planfile import atomic_write_many
 from ..planview import load
 from ..sheets import crew_sheets, html_document, slug, to_html_section, to_markdown, to_text
 
@@ -55,7 +55,6 @@ def run(args, ui) -> int:
     out = Path(args.out)
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {out} is a file, not a folder", "give a folder for the sheets")
-    for name, text in files:
-        atomic_write(out / name, text)
-        ui.out.print(f"wrote {out / name}")
+    for path in atomic_write_many([(out / name, text) for name, text in files]):
+        ui.out.print(f"wrote {path}")
     return 0
