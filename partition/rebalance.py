@@ -26,7 +26,10 @@ Method
    work (their shift limit's share of all limits).
 4. Grow: the pool goes to neighbouring territories, the least loaded crew
    (estimated minutes over shift limit) taking the pool segment next to its
-   territory nearest to its centre, until the pool is empty.
+   territory nearest to its centre, until the pool is empty. How much each
+   neighbour takes comes first from the flow of step 5 with the pool as one
+   more node (:func:`_pool_quotas`): a neighbour with room beyond it takes
+   more, one hemmed in by full territories less.
 5. Hand on: the crews that took the pool are now heavier than the rest. A
    minimum-cost flow on the graph of neighbouring territories (OR-tools)
    says how much work each crew hands to which neighbour so that no estimated
@@ -470,9 +473,84 @@ def _grow_extra(sg: StreetGraph, owner: np.ndarray, c: int, rt_c: np.ndarray, el
                 heapq.heappush(heap, (float(rt_c[t]), t))
 
 
+def _pool_quotas(sg: StreetGraph, owner: np.ndarray, limits: np.ndarray, rate: np.ndarray, band: float,
+                 stability: float) -> np.ndarray | None:
+    """How much of the pool (service minutes) each neighbouring territory should take.
+
+    The same minimum-cost flow as :func:`_transfers`, with the pool as one more
+    node: it sends its work to the territories it borders at no cost (those
+    segments change hands whatever happens), and work handed on between crews
+    costs as there. So a neighbour with room beyond it takes more, and one
+    hemmed in by full territories takes less, and less work has to be handed
+    on afterwards. ``None`` when there is no pool or no neighbour.
+    """
+    from ortools.graph.python import min_cost_flow
+
+    from .balance import _crew_pairs
+
+    k = limits.size
+    pool = sg.required & (owner < 0)
+    if not pool.any() or k < 1:
+        return None
+    row_of = np.repeat(np.arange(sg.nb_ptr.size - 1), np.diff(sg.nb_ptr))
+    nb = sg.nb_idx
+    touch = pool[row_of] & (owner[nb] >= 0)
+    near = sorted(set(owner[nb[touch]].tolist()))
+    if not near:
+        return None
+    scale = 10.0  # tenths of a minute
+    held = owner >= 0
+    work = np.bincount(owner[held], weights=sg.work[held], minlength=k)
+    pool_work = float(sg.work[pool].sum())
+    total_work = float(work.sum()) + pool_work
+    # the cap on each crew's estimated minutes, in its service minutes
+    cap = (1.0 + band) * limits * float((work * rate).sum() + pool_work * rate.mean()) / float(limits.sum()) / rate
+    excess = np.floor(np.maximum(0.0, work - cap) * scale).astype(np.int64)
+    room = np.floor(np.maximum(0.0, cap - work) * scale).astype(np.int64)
+    supply = int(np.floor(pool_work * scale))
+    total = supply + int(excess.sum())
+    per_seg = total_work / max(1, int(np.count_nonzero(sg.required)))
+    hop = max(1, int(round(1000 * stability / per_seg)))
+    f = min_cost_flow.SimpleMinCostFlow()
+    src, dst, pnode = k, k + 1, k + 2
+    f.add_arc_with_capacity_and_unit_cost(src, dst, total, 1000 + 1000 * hop)  # left over: worse than any route
+    f.add_arc_with_capacity_and_unit_cost(src, pnode, supply, 0)
+    taken = {}
+    for c in near:
+        taken[c] = f.add_arc_with_capacity_and_unit_cost(pnode, c, supply, 0)
+    pairs = _crew_pairs(owner, row_of, nb)
+    for c in range(k):
+        if excess[c]:
+            f.add_arc_with_capacity_and_unit_cost(src, c, int(excess[c]), 0)
+        if room[c]:
+            f.add_arc_with_capacity_and_unit_cost(c, dst, int(room[c]), 0)
+        for n in sorted(pairs.get(c, ())):
+            f.add_arc_with_capacity_and_unit_cost(c, n, total, hop)
+    f.set_node_supply(src, total)
+    f.set_node_supply(dst, -total)
+    if f.solve_max_flow_with_min_cost() != f.OPTIMAL:
+        return None
+    quota = np.zeros(k)
+    for c, a in taken.items():
+        quota[c] = f.flow(a) / scale
+    return quota
+
+
 def _grow_pool(sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, load: np.ndarray, limits: np.ndarray,
-               est: np.ndarray) -> None:
-    """Hand the pool (required, owner -1) to neighbouring territories, least loaded crew first."""
+               est: np.ndarray, quota: np.ndarray | None = None) -> None:
+    """Hand the pool (required, owner -1) to neighbouring territories, least loaded crew first.
+
+    ``quota``: service minutes of the pool each crew should take at most
+    (:func:`_pool_quotas`); once every crew has its share, whatever is left
+    of the pool is handed out without them.
+    """
+    if quota is not None:
+        _grow_pool_once(sg, owner, eligible, load, limits, est, quota.copy())
+    _grow_pool_once(sg, owner, eligible, load, limits, est, None)
+
+
+def _grow_pool_once(sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, load: np.ndarray,
+                    limits: np.ndarray, est: np.ndarray, quota: np.ndarray | None) -> None:
     k = limits.size
     centres = _centres(sg, owner, k)
     fronts: list[list] = [[] for _ in range(k)]
@@ -493,7 +571,7 @@ def _grow_pool(sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, load: n
                 border.add(int(t))
     for t in sorted(border):
         push(int(owner[t]), t)
-    turn = [(load[c] / limits[c], c) for c in range(k) if fronts[c]]
+    turn = [(load[c] / limits[c], c) for c in range(k) if fronts[c] and (quota is None or quota[c] > 0)]
     heapq.heapify(turn)
     while turn:
         _, c = heapq.heappop(turn)
@@ -507,6 +585,10 @@ def _grow_pool(sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, load: n
             continue
         owner[got] = c
         load[c] += est[got]
+        if quota is not None:
+            quota[c] -= sg.work[got]
+            if quota[c] <= 0:
+                continue  # this crew has its share of the pool: it stops here
         push(c, got)
         heapq.heappush(turn, (load[c] / limits[c], c))
 
@@ -666,7 +748,8 @@ def rebalance_plan(plan: dict, net: Network, *, absent: Sequence[str] = (),
     if empty:
         _release_pieces(sg, owner, k)
     load = np.array([float(sg.work[owner == i].sum()) * est_rate[i] for i in range(k)])
-    _grow_pool(sg, owner, eligible, load, limits, sg.work * (1.0 + DEADHEAD_ALLOWANCE))
+    quota = _pool_quotas(sg, owner, limits, est_rate, BAND * tolerance, stability)
+    _grow_pool(sg, owner, eligible, load, limits, sg.work * (1.0 + DEADHEAD_ALLOWANCE), quota)
     report("handing on work", 0, 1)
     _transfers(sg, owner, eligible, limits, est_rate, BAND * tolerance, stability)
     report("handing on work", 1, 1)

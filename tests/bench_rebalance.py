@@ -146,7 +146,7 @@ def main() -> None:
           f"(target < 10); changed/absent mean {ratios.mean():.2f} max {ratios.max():.2f}, "
           f"<= 1.3 for {int((ratios <= 1.3).sum())} of {len(one)} (target <= 1.3); longest/mean max {lms.max():.3f} "
           f"(target <= 1.05)")
-    print(f"least possible changed/absent at longest/mean 1.05 (estimate, see _least_ratio): mean {least.mean():.2f}, "
+    print(f"least possible changed/absent at longest/mean 1.05 (flow estimate, see _least_ratio): mean {least.mean():.2f}, "
           f"<= 1.3 for {int((least <= 1.3).sum())} of {len(one)}; ours over it: mean {(ratios / least).mean():.2f}, "
           f"max {(ratios / least).max():.2f}")
 
@@ -154,24 +154,54 @@ def main() -> None:
 def _least_ratio(plan: dict, absent: list[str], spread: float = 1.05) -> float:
     """Fewest segments that must change hands, over the absent crews' segments (an estimate).
 
-    Service minutes are the work measure (they add up over segments). With the
-    absent crews gone, the mean service per crew at work rises; no crew may end
-    above ``spread`` times it. A territory only grows across its own border, so
-    the absent work goes first to the neighbouring territories, which can take
-    at most their headroom under that cap; the rest must go on across a second
-    border, and a segment of a neighbour's handed on changes hands too. So at
-    least ``1 + max(0, absent - headroom) / absent`` of the absent work changes
-    hands. Service is most of a shift (over four fifths here), so this reads
-    the 1.05 cap on shifts as one on service: an estimate, not a proof (the
-    argument is ours; no source).
+    Work is measured in service minutes (they add up over segments). With the
+    absent crews gone, no crew at work may end above ``spread`` times the new
+    mean. A territory only grows across its own border, so work travels from
+    territory to neighbouring territory, and every border it crosses is one
+    more change of hands. The least work crossing borders is a minimum-cost flow
+    on the graph of neighbouring territories (OR-tools): the absent territories
+    supply their work, every crew takes at most its room under the cap, each
+    unit crossing a border costs one. The result over the absent work is the
+    least changed/absent ratio, if segments carried equal work and shifts grew
+    with service alone: an estimate, not a proof (the argument is ours; no source).
     """
+    from ortools.graph.python import min_cost_flow
+
     svc = {c["id"]: sum(r["totals"]["service_min"] for r in c["routes"]) for c in plan["crews"]}
+    ids = sorted(svc)
     gone = set(absent)
-    work = sum(svc.values())
-    cap = spread * work / (len(svc) - len(gone))
-    a = sum(svc[c] for c in gone)
-    room = sum(max(0.0, cap - svc[c]) for c in _neighbours(plan, absent))
-    return 1.0 + max(0.0, a - room) / a
+    cap = spread * sum(svc.values()) / (len(ids) - len(gone))
+    scale = 10.0
+    idx = {c: i for i, c in enumerate(ids)}
+    f = min_cost_flow.SimpleMinCostFlow()
+    sink = len(ids)
+    supply = 0
+    for c in ids:
+        if c in gone:
+            amount = int(round(svc[c] * scale))
+            f.set_node_supply(idx[c], amount)
+            supply += amount
+        else:
+            f.add_arc_with_capacity_and_unit_cost(idx[c], sink, int(max(0.0, cap - svc[c]) * scale), 0)
+    for a, b in _borders(plan):
+        for x, y in ((a, b), (b, a)):
+            if y not in gone:
+                f.add_arc_with_capacity_and_unit_cost(idx[x], idx[y], supply, 1)
+    f.set_node_supply(sink, -supply)
+    if f.solve() != f.OPTIMAL:
+        return float("nan")
+    return f.optimal_cost() / supply
+
+
+def _borders(plan: dict) -> set[tuple[str, str]]:
+    """Pairs of crews whose territories share an intersection."""
+    segs = plan["network"]["segments"]
+    at: dict[int, set[str]] = {}
+    for c in plan["crews"]:
+        for s in c["territory"]:
+            for n in (segs[s]["from"], segs[s]["to"]):
+                at.setdefault(n, set()).add(c["id"])
+    return {(a, b) for crews in at.values() for a in crews for b in crews if a < b}
 
 
 def _neighbours(plan: dict, absent: list[str]) -> set[str]:
