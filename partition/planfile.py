@@ -161,21 +161,7 @@ def atomic_write(path: str | Path, text: str | bytes) -> Path:
 
     A failure part-way leaves no partial file behind.
     """
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    data = text.encode("utf-8") if isinstance(text, str) else text
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; give the usual file mode
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return path
+    return atomic_write_many([(path, text)])[0]
 
 
 def atomic_write_many(files: list[tuple[str | Path, str | bytes]]) -> list[Path]:
@@ -196,7 +182,7 @@ def atomic_write_many(files: list[tuple[str | Path, str | bytes]]) -> list[Path]
                 fh.write(data)
             umask = os.umask(0)
             os.umask(umask)
-            os.chmod(tmp, 0o666 & ~umask)
+            os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; give the usual file mode
     except BaseException:
         for tmp, _ in done:
             Path(tmp).unlink(missing_ok=True)

@@ -359,10 +359,8 @@ def _node_turn_sum(nt: _NodeTurns, lam: float) -> float:
     hard[node_of[nt.free > 0]] = True
     t = np.flatnonzero(takes >= 0)
     if t.size:
-        key = np.stack([node_of[t], takes[t]])
-        _, cnt = np.unique(key, axis=1, return_counts=True)
-        dup = np.unique(key, axis=1)[:, cnt > 1]
-        hard[dup[0]] = True
+        pairs, cnt = np.unique(np.stack([node_of[t], takes[t]]), axis=1, return_counts=True)
+        hard[pairs[0, cnt > 1]] = True  # two arrivals want the same departure
     total = float(alone[~hard[node_of]].sum())
     if not np.isfinite(total):
         return 0.0  # an arrival with no way on at all: no bound from this rule
