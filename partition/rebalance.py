@@ -518,14 +518,7 @@ def _pool_quotas(sg: StreetGraph, owner: np.ndarray, limits: np.ndarray, rate: n
     taken = {}
     for c in near:
         taken[c] = f.add_arc_with_capacity_and_unit_cost(pnode, c, supply, 0)
-    pairs = _crew_pairs(owner, row_of, nb)
-    for c in range(k):
-        if excess[c]:
-            f.add_arc_with_capacity_and_unit_cost(src, c, int(excess[c]), 0)
-        if room[c]:
-            f.add_arc_with_capacity_and_unit_cost(c, dst, int(room[c]), 0)
-        for n in sorted(pairs.get(c, ())):
-            f.add_arc_with_capacity_and_unit_cost(c, n, total, hop)
+    _crew_arcs(f, src, dst, excess, room, _crew_pairs(owner, row_of, nb), total, hop, set())
     f.set_node_supply(src, total)
     f.set_node_supply(dst, -total)
     if f.solve_max_flow_with_min_cost() != f.OPTIMAL:
@@ -534,6 +527,24 @@ def _pool_quotas(sg: StreetGraph, owner: np.ndarray, limits: np.ndarray, rate: n
     for c, a in taken.items():
         quota[c] = f.flow(a) / scale
     return quota
+
+
+def _crew_arcs(f, src: int, dst: int, excess: np.ndarray, room: np.ndarray, pairs: dict[int, set[int]],
+               total: int, hop: int, blocked: set[tuple[int, int]]) -> list[tuple[int, int, int]]:
+    """Arcs of the hand-on flow: excess in, room out, ``hop`` per unit across each open border.
+
+    Returns ``(crew, neighbour, arc)`` for every border arc.
+    """
+    arcs = []
+    for c in range(excess.size):
+        if excess[c]:
+            f.add_arc_with_capacity_and_unit_cost(src, c, int(excess[c]), 0)
+        if room[c]:
+            f.add_arc_with_capacity_and_unit_cost(c, dst, int(room[c]), 0)
+        for n in sorted(pairs.get(c, ())):
+            if (c, n) not in blocked:
+                arcs.append((c, n, f.add_arc_with_capacity_and_unit_cost(c, n, total, hop)))
+    return arcs
 
 
 def _grow_pool(sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, load: np.ndarray, limits: np.ndarray,
@@ -638,15 +649,7 @@ def _transfers(sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, limits:
         per_seg = float(load.sum()) / max(1, int(np.count_nonzero(owner >= 0)))  # estimated minutes per segment
         hop = max(1, int(round(1000 * stability / per_seg)))  # integer costs: 1000 = one minute of excess kept
         f.add_arc_with_capacity_and_unit_cost(src, dst, total, 1000)
-        arcs = []
-        for c in range(k):
-            if excess[c]:
-                f.add_arc_with_capacity_and_unit_cost(src, c, int(excess[c]), 0)
-            if room[c]:
-                f.add_arc_with_capacity_and_unit_cost(c, dst, int(room[c]), 0)
-            for n in sorted(pairs.get(c, ())):
-                if (c, n) not in blocked:
-                    arcs.append((c, n, f.add_arc_with_capacity_and_unit_cost(c, n, total, hop)))
+        arcs = _crew_arcs(f, src, dst, excess, room, pairs, total, hop, blocked)
         f.set_node_supply(src, total)  # as much as fits goes from src to dst
         f.set_node_supply(dst, -total)
         if f.solve_max_flow_with_min_cost() != f.OPTIMAL:

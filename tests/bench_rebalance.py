@@ -206,14 +206,8 @@ def _borders(plan: dict) -> set[tuple[str, str]]:
 
 def _neighbours(plan: dict, absent: list[str]) -> set[str]:
     """Crews at work whose territory shares an intersection with an absent crew's territory."""
-    segs = plan["network"]["segments"]
-    at: dict[int, set[str]] = {}
-    for c in plan["crews"]:
-        for s in c["territory"]:
-            for n in (segs[s]["from"], segs[s]["to"]):
-                at.setdefault(n, set()).add(c["id"])
     gone = set(absent)
-    return {c for crews in at.values() if crews & gone for c in crews} - gone
+    return {x for a, b in _borders(plan) if (a in gone) != (b in gone) for x in (a, b)} - gone
 
 
 def _header() -> str:
