@@ -44,7 +44,7 @@ from solve.result import Route
 
 from .routing import RouteJob, Router
 from .streets import StreetGraph
-from .territories import pieces
+from .territories import BorderTurns, is_connected, pieces, tidy_handover
 
 ProgressFn = Callable[[str, float, float], None]
 # move_cost(heavy crew, light crew, segments given, segments taken back) -> share of a shift limit
@@ -94,7 +94,8 @@ class FleetState:
 
 def balance(state: FleetState, sg: StreetGraph, router: Router, eligible: np.ndarray, *, seed: int = 0,
             tolerance: float = 0.01, max_iterations: int = 500, time_limit_s: float | None = None,
-            progress: ProgressFn | None = None, move_cost: MoveCostFn | None = None) -> BalanceReport:
+            progress: ProgressFn | None = None, move_cost: MoveCostFn | None = None,
+            border: BorderTurns | None = None) -> BalanceReport:
     """Balance ``state`` in place; returns a before/after report (``move_cost``: see the module notes).
 
     The iteration limit is the deterministic stop; ``time_limit_s`` (None: none) adds a
@@ -136,7 +137,7 @@ def balance(state: FleetState, sg: StreetGraph, router: Router, eligible: np.nda
                 key = (c, n, state.version[c], state.version[n])
                 if key in failed:
                     continue
-                if _try_pair(state, sg, router, eligible, c, n, seed, rep, move_cost):
+                if _try_pair(state, sg, router, eligible, c, n, seed, rep, move_cost, border):
                     kept = True
                     break
                 failed.add(key)
@@ -173,7 +174,8 @@ def _cost(move_cost: MoveCostFn | None, c: int, n: int, give: np.ndarray, take: 
 
 
 def _try_pair(state: FleetState, sg: StreetGraph, router: Router, eligible: np.ndarray, c: int, n: int,
-              seed: int, rep: BalanceReport, move_cost: MoveCostFn | None = None) -> bool:
+              seed: int, rep: BalanceReport, move_cost: MoveCostFn | None = None,
+              border: BorderTurns | None = None) -> bool:
     """Move work from heavy crew ``c`` to its lighter neighbour ``n``; True when a move was kept."""
     rc, rn = state.routes[c], state.routes[n]
     lc, ln = state.limits[c], state.limits[n]
@@ -187,7 +189,7 @@ def _try_pair(state: FleetState, sg: StreetGraph, router: Router, eligible: np.n
     if want <= 0:
         return False
     for frac in (1.0, 0.5, 0.25):
-        batch = _grow_batch(state, sg, eligible, c, n, want * frac)
+        batch = _grow_batch(state, sg, eligible, c, n, want * frac, border=border)
         if batch is None or batch.size == 0:
             continue
         w = float(sg.work[batch].sum())
@@ -200,9 +202,10 @@ def _try_pair(state: FleetState, sg: StreetGraph, router: Router, eligible: np.n
             rep.moves_kept += 1
             return True
     # a swap: the same border batch goes over, an equal share of the neighbour's border comes back
-    batch = _grow_batch(state, sg, eligible, c, n, want * 0.5)
+    batch = _grow_batch(state, sg, eligible, c, n, want * 0.5, border=border)
     if batch is not None and batch.size:
-        back = _grow_batch(state, sg, eligible, n, c, float(sg.work[batch].sum()) * 0.5, avoid=batch)
+        back = _grow_batch(state, sg, eligible, n, c, float(sg.work[batch].sum()) * 0.5, avoid=batch,
+                           border=border)
         if back is not None and back.size and _apply_if_better(state, sg, router, c, n, batch, back, old, seed, rep,
                                                                _cost(move_cost, c, n, batch, back)):
             rep.swaps_kept += 1
@@ -217,7 +220,7 @@ def _rate(route: Route, sg: StreetGraph, segs: np.ndarray) -> float:
 
 
 def _grow_batch(state: FleetState, sg: StreetGraph, eligible: np.ndarray, c: int, n: int, target: float,
-                avoid: np.ndarray | None = None) -> np.ndarray | None:
+                avoid: np.ndarray | None = None, border: BorderTurns | None = None) -> np.ndarray | None:
     """A connected batch of ``c``'s segments along its border with ``n``, about ``target`` service minutes.
 
     Segments nearest to ``n``'s centre (relative to ``c``'s) go first. Returns the
@@ -255,6 +258,10 @@ def _grow_batch(state: FleetState, sg: StreetGraph, eligible: np.ndarray, c: int
             if owner[t] == c and t not in seen and eligible[n, t] and t not in avoid_set:
                 seen.add(t)
                 heapq.heappush(heap, (key(t), t))
+    if batch and border is not None:
+        tidied = tidy_handover(sg, owner, eligible, c, n, batch, border)
+        if tidied and avoid_set.isdisjoint(tidied) and is_connected(sg, np.concatenate([tn, tidied])):
+            batch = tidied
     if not batch or len(batch) >= tc.size:
         return None
     bset = set(batch)

@@ -39,7 +39,7 @@ from .planfile import CrewPlan, build_plan
 from .routing import LocalRouter, RouteJob, Router, check_workers
 from .seeding import seed_territories
 from .streets import build_street_graph, depot_travel, round_trips
-from .territories import _describe, grow_territories, polish_borders, smooth_boundaries, territories_of
+from .territories import BorderTurns, _describe, grow_territories, polish_borders, smooth_boundaries, territories_of
 
 ProgressFn = Callable[[str, float, float], None]
 
@@ -86,7 +86,8 @@ def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: 
     approach = np.array([rt[c, s] - sg.service_min[s] if s >= 0 else 0.0 for c, s in enumerate(seeds)])
     owner = grow_territories(net, sg, centres, seeds, eligible, approach)
     smooth_boundaries(net, sg, owner, eligible)
-    polish_borders(net, sg, owner, eligible, TurnModel.from_network(net, profile))
+    border = BorderTurns(net, sg, TurnModel.from_network(net, profile))
+    polish_borders(net, sg, owner, eligible, border)
     report("territories", 1, 1)
     own_router = router is None
     if own_router:
@@ -94,7 +95,7 @@ def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: 
     limits = np.array([c.shift_limit_min for c in crews], float)
     try:
         state, bal = _route_and_balance(owner, router, sg, eligible, depots, limits, seed, tolerance,
-                                        max_iterations, time_limit_s, progress, report)
+                                        max_iterations, time_limit_s, progress, report, border)
     finally:
         if own_router:
             router.close()
@@ -116,7 +117,7 @@ def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: 
 
 
 def _route_and_balance(owner, router, sg, eligible, depots, limits, seed, tolerance, max_iterations,
-                       time_limit_s, progress, report):
+                       time_limit_s, progress, report, border=None):
     k = len(depots)
     terr = territories_of(owner, k)
     report("routing territories", 0, k)
@@ -124,7 +125,7 @@ def _route_and_balance(owner, router, sg, eligible, depots, limits, seed, tolera
     report("routing territories", k, k)
     state = FleetState(owner=owner, routes=list(routes), depots=list(depots), limits=limits)
     bal = balance(state, sg, router, eligible, seed=seed, tolerance=tolerance,
-                  max_iterations=max_iterations, time_limit_s=time_limit_s, progress=progress)
+                  max_iterations=max_iterations, time_limit_s=time_limit_s, progress=progress, border=border)
     return state, bal
 
 

@@ -40,9 +40,17 @@ class StreetGraph:
     mid_y: np.ndarray
     nb_ptr: np.ndarray  # CSR neighbour lists over segment ids (required segments only)
     nb_idx: np.ndarray
+    seg_u: np.ndarray  # end nodes of every segment
+    seg_v: np.ndarray
+    at_ptr: np.ndarray  # CSR over node ids: the required segments at each node
+    at_idx: np.ndarray
 
     def neighbours(self, s: int) -> np.ndarray:
         return self.nb_idx[self.nb_ptr[s]:self.nb_ptr[s + 1]]
+
+    def at(self, x: int) -> np.ndarray:
+        """Required segments with an end at node ``x``."""
+        return self.at_idx[self.at_ptr[x]:self.at_ptr[x + 1]]
 
 
 def build_street_graph(net: Network, profile: Profile) -> StreetGraph:
@@ -69,8 +77,12 @@ def build_street_graph(net: Network, profile: Profile) -> StreetGraph:
     p = np.unique(np.concatenate(pairs).astype(np.int64).reshape(-1, 2), axis=0)
     adj = sparse.csr_matrix((np.ones(p.shape[0], np.int8), (p[:, 0], p[:, 1])), shape=(m, m))
     adj.sort_indices()
+    inc = b.T.tocsr()  # node x segment
+    inc.sort_indices()
     return StreetGraph(passes, req, work, smin, dmin, mx, my,
-                       adj.indptr.astype(np.int64), adj.indices.astype(np.int64))
+                       adj.indptr.astype(np.int64), adj.indices.astype(np.int64),
+                       net.seg_u.astype(np.int64), net.seg_v.astype(np.int64),
+                       inc.indptr.astype(np.int64), inc.indices.astype(np.int64))
 
 
 def _undirected_usable(net: Network, weight: np.ndarray) -> sparse.csr_matrix:

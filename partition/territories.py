@@ -229,6 +229,39 @@ def smooth_boundaries(net: Network, sg: StreetGraph, owner: np.ndarray, eligible
     return moved
 
 
+def tidy_handover(sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, c: int, n: int,
+                  batch: list[int], border: "BorderTurns", rounds: int = 4) -> list[int]:
+    """Adjust a batch of ``c``'s segments about to go to ``n`` so that the new border forces fewer turns.
+
+    At the nodes the batch touches, a segment of ``c`` joins the batch, or a batch
+    segment stays with ``c``, when that lowers the :class:`BorderTurns` estimate
+    of ``c`` and ``n`` at its two ends (a stub left behind costs a U-turn); each
+    change lowers the estimate, so the loop ends. Only segments ``n`` can serve
+    join. Connectivity is the caller's to check.
+    """
+    o = owner.copy()
+    o[batch] = n
+    for _ in range(rounds):
+        changed = False
+        nodes = sorted(set(sg.seg_u[o != owner].tolist()) | set(sg.seg_v[o != owner].tolist()))
+        for x in nodes:
+            for s in sg.at(x).tolist():
+                a, b = int(sg.seg_u[s]), int(sg.seg_v[s])
+                if a == b or owner[s] != c or (o[s] == c and not eligible[n, s]):
+                    continue
+                ends = (a, b)
+                before = sum(border.at(o, c, y) + border.at(o, n, y) for y in ends)
+                o[s] = n if o[s] == c else c
+                after = sum(border.at(o, c, y) + border.at(o, n, y) for y in ends)
+                if after < before - 1e-9:
+                    changed = True
+                else:
+                    o[s] = n if o[s] == c else c
+        if not changed:
+            break
+    return np.flatnonzero((o == n) & (owner == c)).tolist()
+
+
 class BorderTurns:
     """Estimated turn minutes a territory's own passes force at each node.
 
@@ -324,8 +357,8 @@ def street_runs(net: Network, sg: StreetGraph) -> list[list[int]]:
     return [sorted(r) for _, r in sorted(runs.items())]
 
 
-def polish_borders(net: Network, sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, model,
-                   rounds: int = 6, slack: float = 0.01) -> int:
+def polish_borders(net: Network, sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray,
+                   bt: "BorderTurns", rounds: int = 6, slack: float = 0.01) -> int:
     """Move street runs across borders where that cuts the turns borders force; returns moves made.
 
     A run's part held by territory A (see :func:`street_runs`) moves to a
@@ -337,7 +370,6 @@ def polish_borders(net: Network, sg: StreetGraph, owner: np.ndarray, eligible: n
     at most ``slack`` of the mean load; the balancer evens out the rest. Runs
     are visited in order of their lowest segment id: deterministic.
     """
-    bt = BorderTurns(net, sg, model)
     u, v = net.seg_u, net.seg_v
     k = int(eligible.shape[0])
     est = sg.work * (1.0 + DEADHEAD_ALLOWANCE)

@@ -214,7 +214,7 @@ def test_polish_borders_keeps_territories_and_cuts_border_turns(seed, k):
             ra = owner[bt.arr_seg[x]] == c
             cd = owner[bt.dep_seg[x]] == c
             assert bt.at(owner, c, x) == pytest.approx(_brute_pairing(bt.cost[x][np.ix_(ra, cd)]))
-    polish_borders(net, sg, owner, el, model)
+    polish_borders(net, sg, owner, el, bt)
     # every required segment still has exactly one crew; territories connected (networkx)
     assert np.array_equal(owner >= 0, sg.required)
     for c in range(k):
@@ -235,3 +235,32 @@ def test_polish_borders_keeps_territories_and_cuts_border_turns(seed, k):
         if len(r) > 1:
             inner = [x for x in g.nodes if g.degree(x) == 2]
             assert all(deg[x] == 2 for x in inner)
+
+
+@pytest.mark.parametrize("seed", [2, 5, 9])
+def test_tidy_handover_only_lowers_border_turns_and_moves_only_the_giver(seed):
+    """A border batch, tidied, forces no more turns than as grown (brute-force pairing, itertools)."""
+    from partition.territories import BorderTurns, tidy_handover
+    from solve.turns import TurnModel
+
+    profile = Profile(shift_limit_min=1440.0)
+    net = grid_network(9, 7, seed)
+    crews = resolve_crews(net, profile, k=2, depot_lonlat=(-30.5, 45.2))
+    sg, owner = _grow(net, profile, crews, seed)
+    bt = BorderTurns(net, sg, TurnModel.from_network(net, profile))
+    el = np.ones((2, net.n_segments), bool)
+    # the batch: crew 0's segments that touch a node of crew 1 (its whole border, as the balancer starts)
+    nodes1 = set(net.seg_u[owner == 1].tolist()) | set(net.seg_v[owner == 1].tolist())
+    batch = [s for s in np.flatnonzero(owner == 0).tolist()
+             if int(net.seg_u[s]) in nodes1 or int(net.seg_v[s]) in nodes1]
+    assert batch
+    tidied = tidy_handover(sg, owner, el, 0, 1, batch, bt)
+    # only crew 0's segments are handed over, and the input owner array is untouched
+    assert set(tidied) <= set(np.flatnonzero(owner == 0).tolist())
+    grown, tidy = owner.copy(), owner.copy()
+    grown[batch] = 1
+    tidy[tidied] = 1
+    assert _border_total(bt, tidy, 2) <= _border_total(bt, grown, 2) + 1e-9
+    # a segment crew 1 cannot serve never joins
+    el[1, batch[0]] = False
+    assert batch[0] not in tidy_handover(sg, owner, el, 0, 1, batch[1:], bt) or batch[0] in batch[1:]
