@@ -4,9 +4,11 @@
   crew territory (MultiLineString of its segments) and one per route (a single
   continuous LineString through the traversals in driving order), with
   properties naming the crew and its totals.
-* GPX 1.1 (namespace http://www.topografix.com/GPX/1/1): one ``<rte>`` per crew
-  route, route points in driving order, for in-cab navigation. No timestamps, so
-  the same plan gives the same bytes.
+* GPX 1.1 (namespace http://www.topografix.com/GPX/1/1): a ``<wpt>`` at each
+  crew's depot and one ``<trk>`` per crew route, track points in driving order,
+  for in-cab devices (a track is followed as drawn; a GPX route would be
+  re-planned between its points). No timestamps, so the same plan gives the
+  same bytes.
 * CSV: one row per network segment: segment id, source id, street name, crew
   (empty when no crew serves it; several joined by ";"), required passes and
   the passes the routes serve.
@@ -60,22 +62,34 @@ def to_geojson(pv: PlanView) -> str:
 
 
 def to_gpx(pv: PlanView) -> str:
+    """GPX 1.1: each crew's depot as a waypoint and each route as a track.
+
+    A track, not a GPX route: navigation devices re-plan the way between route
+    points and could cut through streets the crew must serve; a track is
+    followed as drawn.
+    """
     pv.need_geometry()
     out = ['<?xml version="1.0" encoding="UTF-8"?>',
            '<gpx version="1.1" creator="crewcut" xmlns="http://www.topografix.com/GPX/1/1" '
            'xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance" '
            'xsi:schemaLocation="http://www.topografix.com/GPX/1/1 http://www.topografix.com/GPX/1/1/gpx.xsd">',
            f"<metadata><name>{escape(pv.title)}</name></metadata>"]
+    for c in pv.crews:  # GPX 1.1 puts every wpt before the first trk
+        at = pv.node_lonlat(int(c["depot_node"]))
+        if at is not None:
+            out.append(f'<wpt lat="{at[1]:.7f}" lon="{at[0]:.7f}"><name>{escape(c["id"])} depot</name></wpt>')
     for c in pv.crews:
         for r in c["routes"]:
             t = _totals(pv, r)
-            out.append("<rte>")
+            out.append("<trk>")
             out.append(f"<name>{escape(c['id'])} {escape(str(r.get('id', '')))}</name>")
             desc = f"serve {t['service_km']:.2f} km, drive {t['deadhead_km']:.2f} km, {t['total_min']:.0f} min"
             out.append(f"<desc>{escape(desc)}</desc>")
+            out.append("<trkseg>")
             for lon, lat in pv.route_coords(r):
-                out.append(f'<rtept lat="{lat:.7f}" lon="{lon:.7f}"></rtept>')
-            out.append("</rte>")
+                out.append(f'<trkpt lat="{lat:.7f}" lon="{lon:.7f}"></trkpt>')
+            out.append("</trkseg>")
+            out.append("</trk>")
     out.append("</gpx>")
     return "\n".join(out) + "\n"
 

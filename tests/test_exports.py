@@ -59,18 +59,25 @@ def _driving_points(plan, route):
     return pts
 
 
-def test_gpx_one_route_per_crew_points_in_order(plan, plan_path, capsys):
+def test_gpx_one_track_per_crew_points_in_order(plan, plan_path, capsys):
     text = _export(plan_path, "gpx", capsys)
     gpx = gpxpy.parse(io.StringIO(text))  # reference GPX reader
     assert gpx.version == "1.1"
     assert 'xmlns="http://www.topografix.com/GPX/1/1"' in text
-    assert len(gpx.routes) == len(plan["crews"])
-    for rte, crew in zip(gpx.routes, plan["crews"]):
-        assert rte.name.split()[0] == crew["id"]
+    # a track, followed as drawn; GPX routes get re-planned between points by devices
+    assert not gpx.routes and len(gpx.tracks) == len(plan["crews"])
+    for trk, crew in zip(gpx.tracks, plan["crews"]):
+        assert trk.name.split()[0] == crew["id"]
         want = _driving_points(plan, crew["routes"][0])
-        assert len(rte.points) == len(want)
-        for p, (lon, lat) in zip(rte.points, want):
+        pts = [p for seg in trk.segments for p in seg.points]
+        assert len(pts) == len(want)
+        for p, (lon, lat) in zip(pts, want):
             assert abs(p.longitude - lon) <= 1e-7 and abs(p.latitude - lat) <= 1e-7
+        # the track starts and ends at the crew's depot waypoint
+        wpt = [w for w in gpx.waypoints if w.name == f"{crew['id']} depot"]
+        assert len(wpt) == 1
+        for p in (pts[0], pts[-1]):
+            assert abs(p.longitude - wpt[0].longitude) <= 1e-7 and abs(p.latitude - wpt[0].latitude) <= 1e-7
 
 
 def test_geojson_territories_and_routes(plan, plan_path, capsys):

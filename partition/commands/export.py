@@ -7,7 +7,7 @@ from .common import write_or_print
 from ..planview import load
 
 NAME = "export"
-HELP = "export a plan as GeoJSON (territories and routes), GPX 1.1 (one route per crew) or CSV (per segment)"
+HELP = "export a plan as GeoJSON (territories and routes), GPX 1.1 (one track per crew, depots as waypoints) or CSV (per segment)"
 
 
 def add_arguments(p) -> None:
