@@ -13,7 +13,10 @@ Method
 ------
 Repeatedly take the most loaded crew and a lighter neighbouring crew and move a
 connected batch of the heavy crew's boundary segments, grown from the common
-border, to the lighter one. The batch size comes from a fast estimate: each
+border, to the lighter one; given a :class:`partition.territories.BorderTurns`,
+the batch is first tidied so that the new border leaves fewer stubs
+(:func:`partition.territories.tidy_handover`; a stub costs its crew a U-turn).
+The batch size comes from a fast estimate: each
 territory's measured minutes per service minute (so its deadhead and turns
 scale with the work). If the heavy territory would fall apart, the cut-off
 pieces move too. The estimate screens moves; only the two territories touched
