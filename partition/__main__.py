@@ -1,4 +1,4 @@
-"""``python -m partition`` runs the crewcut command line."""
-from .cli import main
+"""``python -m crewcut`` runs the crewcut command line."""
+from crewcut.cli.main import main
 
 raise SystemExit(main())

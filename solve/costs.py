@@ -26,8 +26,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .network import (SERVICE_BOTH_SIDES, SERVICE_EACH_DIRECTION, SERVICE_ONE_PASS, Network)
-from .profile import Profile
+from crewcut.solve.network.model import (SERVICE_BOTH_SIDES, SERVICE_EACH_DIRECTION, SERVICE_ONE_PASS, Network)
+from crewcut.solve.profile import Profile
 
 
 @dataclass(frozen=True)

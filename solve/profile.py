@@ -12,8 +12,8 @@ from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
 
-from .errors import InputError
-from .network import SERVICE_NAMES
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import SERVICE_NAMES
 
 TURN_KINDS = ("u_turn", "across_traffic", "with_traffic", "straight")
 
@@ -251,8 +251,8 @@ def load_profile(path: str | Path | None) -> Profile:
 
 
 def _configs_dir() -> Path:
-    try:  # installed: configs/ is shipped as the package solve.configs
-        return Path(str(resources.files("solve.configs")))
+    try:  # installed: configs/ is shipped as the package crewcut.solve.configs
+        return Path(str(resources.files("crewcut.solve.configs")))
     except ModuleNotFoundError:  # running from a source checkout
         return Path(__file__).resolve().parent.parent / "configs"
 

@@ -74,7 +74,7 @@ class Route:
 
     ``lower_bound_min``: a proven lower bound on the total minutes of any route
     serving the same passes from the same depot (service, deadhead and the
-    turns every served arrival forces, see :func:`solve.bounds.turn_lower_bound`);
+    turns every served arrival forces, see :func:`crewcut.solve.postman.bounds.turn_lower_bound`);
     ``gap = total_min / lower_bound_min - 1``.
     """
 

@@ -12,15 +12,15 @@ streets meet), with turn penalties on top.
 Method
 ------
 1. Tasks (one per required pass) and deadhead arcs (every legal driving
-   direction of every usable segment): :mod:`solve.tasks`.
+   direction of every usable segment): :mod:`crewcut.solve.postman.tasks`.
 2. The cheapest set of deadhead repeats that makes the tasks plus the depot a
-   balanced, connected multigraph: :func:`solve.eulerize.eulerize` (exact for the
+   balanced, connected multigraph: :func:`crewcut.solve.postman.eulerize.eulerize` (exact for the
    undirected and directed cases, a stated heuristic with a lower bound for the
    mixed case; it also connects a depot that lies away from the tasks).
-3. An Euler circuit from the depot, turn-aware by default: :mod:`solve.circuit`.
+3. An Euler circuit from the depot, turn-aware by default: :mod:`crewcut.solve.circuits.euler`.
 
 The route's ``lower_bound_min`` bounds its total minutes: service, deadhead and
-the least turns every served arrival forces (:func:`solve.bounds.turn_lower_bound`);
+the least turns every served arrival forces (:func:`crewcut.solve.postman.bounds.turn_lower_bound`);
 ``exact`` says the deadhead part is proven least, never the turns.
 """
 from __future__ import annotations
@@ -30,16 +30,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .bounds import route_lower_bound
-from .circuit import euler_circuit
-from .errors import InputError
-from .eulerize import augmented_arcs, eulerize
-from .network import Network
-from .profile import Profile
-from .result import TURNS, Augmentation, Route, RouteTotals, Traversal
-from .depot import check_depot_node
-from .tasks import DeadheadArcs, TaskSet, build_deadhead, build_tasks
-from .turns import TurnModel
+from crewcut.solve.postman.bounds import route_lower_bound
+from crewcut.solve.circuits.euler import euler_circuit
+from crewcut.solve.errors import InputError
+from crewcut.solve.postman.eulerize import augmented_arcs, eulerize
+from crewcut.solve.network.model import Network
+from crewcut.solve.profile import Profile
+from crewcut.solve.result import TURNS, Augmentation, Route, RouteTotals, Traversal
+from crewcut.solve.network.depot import check_depot_node
+from crewcut.solve.postman.tasks import DeadheadArcs, TaskSet, build_deadhead, build_tasks
+from crewcut.solve.circuits.turns import TurnModel
 
 
 def _check_segments(net: Network, segments) -> np.ndarray | None:
@@ -148,7 +148,7 @@ def plan_route(net: Network, profile: Profile, depot: int, segments=None, *, tur
 
     Returns
     -------
-    :class:`solve.result.Route`; ``stats`` holds the U-turn and across-traffic
+    :class:`crewcut.solve.result.Route`; ``stats`` holds the U-turn and across-traffic
     counts of the chosen circuit and of plain Hierholzer on the same augmentation.
 
     Raises :class:`InputError` for a depot or segment that does not exist, a

@@ -3,7 +3,7 @@
 1. Undirected T-join against a networkx baseline (Dijkstra between the odd nodes,
    then ``nx.min_weight_matching`` on their complete graph) at about 250, 500 and
    1,000 odd nodes: same cost, speed ratio printed (target >= 1,000 at 1,000).
-2. A generated 100,000-segment town (solve.towngen + solve.readers): undirected
+2. A generated 100,000-segment town (crewcut.demo.towngen + crewcut.solve.readers): undirected
    (walking profile) and directed (every street ploughed each way) Eulerization,
    each timed (target under 5 s).
 3. A 20,000-segment mixed town (main streets both curbs, residential streets one
@@ -26,10 +26,10 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from solve.eulerize import eulerize  # noqa: E402
-from solve.profile import builtin_profile  # noqa: E402
-from solve.tasks import build_deadhead, build_tasks  # noqa: E402
-from solve.tjoin import min_tjoin  # noqa: E402
+from crewcut.solve.postman.eulerize import eulerize  # noqa: E402
+from crewcut.solve.profile import builtin_profile  # noqa: E402
+from crewcut.solve.postman.tasks import build_deadhead, build_tasks  # noqa: E402
+from crewcut.solve.postman.tjoin import min_tjoin  # noqa: E402
 
 
 def perturbed_grid(side: int, seed: int):
@@ -81,8 +81,8 @@ def bench_matching(targets):
 
 
 def load_town(n_segments: int, profile):
-    from solve.readers import read_network
-    from solve.towngen import generate_town
+    from crewcut.solve.readers import read_network
+    from crewcut.demo.towngen import generate_town
     with tempfile.TemporaryDirectory() as d:
         path = Path(d) / "town.geojson"
         path.write_text(json.dumps(generate_town(n_segments, seed=0)))

@@ -6,7 +6,7 @@ repository root:
     python tests/bench_load.py [--segments 100000] [--seed 0]
 
 Prints, side by side from one run: wall time of generating the town, of writing
-it, and of loading it with ``solve.readers.read_network`` (reading, topology
+it, and of loading it with ``crewcut.solve.readers.read_network`` (reading, topology
 repair, lengths), and the peak memory of the process. Targets: load under 30 s
 and peak memory under 2 GB.
 
@@ -28,8 +28,8 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from solve import towngen  # noqa: E402
-from solve.profile import builtin_profile  # noqa: E402
+from crewcut.demo import towngen  # noqa: E402
+from crewcut.solve.profile import builtin_profile  # noqa: E402
 
 
 def _rss_mb() -> float:
@@ -56,9 +56,9 @@ def main() -> int:
         size_mb = path.stat().st_size / 2**20
         del town
         try:
-            from solve.readers import read_network
+            from crewcut.solve.readers import read_network
         except ImportError:
-            print("solve.readers is not in this version: only generation was measured")
+            print("crewcut.solve.readers is not in this version: only generation was measured")
             read_network = None
         t_load = float("nan")
         peak_py = float("nan")

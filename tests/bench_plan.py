@@ -2,16 +2,16 @@
 
 Run:  /work/venv/bin/python tests/bench_plan.py [--sizes 2000,20000] [--crews 4,12] [--workers 2]
 
-For each invented Tallowmere town (solve.towngen, seed 0) and crew count, with all
+For each invented Tallowmere town (crewcut.demo.towngen, seed 0) and crew count, with all
 crews sharing one depot at the town centre and the shipped curb-sweeping profile
 (shift limits raised to 24 h so that no limit interferes with balancing):
 
 * wall time of ``plan_fleet`` (territories, routes, balancing, lower bound);
-* longest shift / lower bound (solve.bounds.fleet_lower_bound), longest / mean;
+* longest shift / lower bound (crewcut.solve.postman.bounds.fleet_lower_bound), longest / mean;
 * deadhead share of the distance driven;
 * longest shift of the route-first, cluster-second baseline of Frederickson,
-  Hecht and Kim (1978) (one giant tour from solve.route.plan_route split into k
-  pieces, partition.baseline) and our longest over the baseline's;
+  Hecht and Kim (1978) (one giant tour from crewcut.solve.route.plan_route split into k
+  pieces, crewcut.fleet.baseline) and our longest over the baseline's;
 * how territorial each plan is, ours and the baseline's side by side: "area x",
   the crews' convex hulls (of the midpoints of the streets each serves, shapely)
   added up over the hull of all streets (1.0: crews do not overlap; k: every crew
@@ -33,14 +33,14 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from partition.baseline import route_first_split  # noqa: E402
-from partition.crews import resolve_crews  # noqa: E402
-from partition.planfile import route_from_section  # noqa: E402
-from partition.planner import plan_fleet  # noqa: E402
-from solve.profile import builtin_profile  # noqa: E402
-from solve.readers import read_network  # noqa: E402
-from solve.route import plan_route  # noqa: E402
-from solve.towngen import write_town  # noqa: E402
+from crewcut.fleet.baseline import route_first_split  # noqa: E402
+from crewcut.fleet.crews import resolve_crews  # noqa: E402
+from crewcut.plans.planfile import route_from_section  # noqa: E402
+from crewcut.fleet.planner import plan_fleet  # noqa: E402
+from crewcut.solve.profile import builtin_profile  # noqa: E402
+from crewcut.solve.readers import read_network  # noqa: E402
+from crewcut.solve.route import plan_route  # noqa: E402
+from crewcut.demo.towngen import write_town  # noqa: E402
 
 
 def main() -> None:

@@ -24,8 +24,8 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from solve.profile import builtin_profile  # noqa: E402
-from solve.readers import read_network  # noqa: E402
+from crewcut.solve.profile import builtin_profile  # noqa: E402
+from crewcut.solve.readers import read_network  # noqa: E402
 
 
 def grid_features(n_segments: int, seed: int = 0) -> dict:

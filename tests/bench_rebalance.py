@@ -2,13 +2,13 @@
 
 Run:  /work/venv/bin/python tests/bench_rebalance.py [--segments 20000] [--crews 12] [--workers 2]
 
-An invented Tallowmere town (solve.towngen.generate_town, seed 0) is planned
-once for 12 crews (partition.planner.plan_fleet), half of them at each of the
-town's two yards (solve.towngen.town_depots), with the shipped curb-sweeping
+An invented Tallowmere town (crewcut.demo.towngen.generate_town, seed 0) is planned
+once for 12 crews (crewcut.fleet.planner.plan_fleet), half of them at each of the
+town's two yards (crewcut.demo.towngen.town_depots), with the shipped curb-sweeping
 profile. Sweeping all of a 20,000-segment town takes 12 crews some 60 hours
 each, so the shift limit is a week (10,080 min, a weekly cycle) and the work
 fits. Then, side by side, each case is rebalanced from that plan
-(partition.rebalance.rebalance_plan, default settings):
+(crewcut.fleet.replan.rebalance_plan, default settings):
 
 * each crew absent in turn (how many neighbouring territories the absent one
   has decides how far its work must travel), and once more with stability 0
@@ -42,13 +42,13 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from partition.crews import FleetCrew  # noqa: E402
-from partition.planner import plan_fleet  # noqa: E402
-from partition.rebalance import rebalance_plan  # noqa: E402
-from partition.streets import build_street_graph, depot_travel, round_trips  # noqa: E402
-from solve.profile import builtin_profile  # noqa: E402
-from solve.readers import read_network  # noqa: E402
-from solve.towngen import dumps_town, generate_town, town_depots  # noqa: E402
+from crewcut.fleet.crews import FleetCrew  # noqa: E402
+from crewcut.fleet.planner import plan_fleet  # noqa: E402
+from crewcut.fleet.replan import rebalance_plan  # noqa: E402
+from crewcut.fleet.streets import build_street_graph, depot_travel, round_trips  # noqa: E402
+from crewcut.solve.profile import builtin_profile  # noqa: E402
+from crewcut.solve.readers import read_network  # noqa: E402
+from crewcut.demo.towngen import dumps_town, generate_town, town_depots  # noqa: E402
 
 
 WEEK_MIN = 7 * 24 * 60.0

@@ -22,11 +22,11 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 from rich.console import Console  # noqa: E402
 from rich.table import Table  # noqa: E402
 
-from solve.circuit import euler_circuit  # noqa: E402
-from solve.profile import builtin_profile  # noqa: E402
-from solve.readers import read_network  # noqa: E402
-from solve.route import augmented_traversals  # noqa: E402
-from solve.turns import TurnModel  # noqa: E402
+from crewcut.solve.circuits.euler import euler_circuit  # noqa: E402
+from crewcut.solve.profile import builtin_profile  # noqa: E402
+from crewcut.solve.readers import read_network  # noqa: E402
+from crewcut.solve.route import augmented_traversals  # noqa: E402
+from crewcut.solve.circuits.turns import TurnModel  # noqa: E402
 
 EXAMPLE = Path(__file__).resolve().parent.parent / "examples" / "tallowmere.geojson"
 
@@ -34,7 +34,7 @@ EXAMPLE = Path(__file__).resolve().parent.parent / "examples" / "tallowmere.geoj
 def load_town(n_segments: int, tmp: Path, profile):
     if n_segments == 2000 and EXAMPLE.is_file():
         return read_network(EXAMPLE, profile), str(EXAMPLE.name)
-    from solve.towngen import write_town
+    from crewcut.demo.towngen import write_town
 
     path = write_town(tmp / f"town-{n_segments}.geojson", n_segments, seed=0)
     return read_network(path, profile), f"generated town, {n_segments:,} segments, seed 0"

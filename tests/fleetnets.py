@@ -3,7 +3,7 @@
 Networks are invented grids near Tallowmere (lon -30.5, lat 45.2) with jittered
 corners, some streets missing, one-way rows in alternating directions (so every
 street stays reachable both ways) and a mix of service kinds. They are built
-with the project's topology repair (:func:`solve.repair.build_network`).
+with the project's topology repair (:func:`crewcut.solve.network.repair.build_network`).
 
 The checks here do not use the planner: ``check_plan_independently`` walks the
 plan with networkx and plain counting; ``nx_lower_bound`` recomputes the min-max
@@ -16,9 +16,9 @@ import math
 import networkx as nx
 import numpy as np
 
-from solve.network import RawLine
-from solve.profile import Profile
-from solve.repair import build_network
+from crewcut.solve.network.model import RawLine
+from crewcut.solve.profile import Profile
+from crewcut.solve.network.repair import build_network
 
 ORIGIN = (-30.5, 45.2)
 STREET_WORDS = ("Tallow", "Mere", "Wick", "Candle", "Lantern", "Ember", "Flax", "Reed")
@@ -71,7 +71,7 @@ def passes_needed(seg: dict, ignore_oneway: bool) -> tuple[int, int, int]:
 
     From the trade (design.md section 2): one pass per curb with traffic, both
     curbs of a one-way street in its direction; one-pass streets either way.
-    Written out again here so that the check does not reuse solve.costs.
+    Written out again here so that the check does not reuse crewcut.solve.costs.
     """
     if seg["closed"]:
         return 0, 0, 0
@@ -135,7 +135,7 @@ def check_plan_independently(plan: dict, whole_segments: bool = True) -> None:
 
 
 def _azimuth(p, q) -> float:
-    """Compass bearing from lon/lat p to q, degrees (pyproj's geodesic, not solve.network)."""
+    """Compass bearing from lon/lat p to q, degrees (pyproj's geodesic, not crewcut.solve.network.model)."""
     from pyproj import Geod
 
     az, _, _ = Geod(ellps="WGS84").inv(p[0], p[1], q[0], q[1])

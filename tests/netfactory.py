@@ -8,8 +8,8 @@ from __future__ import annotations
 import networkx as nx
 import numpy as np
 
-from solve.network import SERVICE_BOTH_SIDES, SERVICE_NONE, SERVICE_ONE_PASS, Network
-from solve.profile import Profile
+from crewcut.solve.network.model import SERVICE_BOTH_SIDES, SERVICE_NONE, SERVICE_ONE_PASS, Network
+from crewcut.solve.profile import Profile
 
 
 def metre_profile(ignore_oneway: bool = False) -> Profile:

@@ -8,7 +8,7 @@ only) and walked with networkx's ``eulerian_circuit`` from the depot. The first
 traversal of a band street serves it, every other traversal is deadhead.
 Turns are classified from compass headings (straight within 30 degrees, U-turn
 from 150 degrees: common practice, no source). The plan is assembled with
-:func:`partition.planfile.build_plan`, the same function the planners use.
+:func:`crewcut.plans.planfile.build_plan`, the same function the planners use.
 """
 from __future__ import annotations
 
@@ -16,12 +16,12 @@ import networkx as nx
 import numpy as np
 import pytest
 
-from partition.planfile import CrewPlan, build_plan, write_plan
-from solve.costs import deadhead_minutes, service_minutes
-from solve.geodesy import geodesic_lengths, project
-from solve.network import SERVICE_NONE, SERVICE_ONE_PASS, Network, _bearing
-from solve.profile import Profile
-from solve.result import Route, RouteTotals, Traversal
+from crewcut.plans.planfile import CrewPlan, build_plan, write_plan
+from crewcut.solve.costs import deadhead_minutes, service_minutes
+from crewcut.solve.network.geodesy import geodesic_lengths, project
+from crewcut.solve.network.model import SERVICE_NONE, SERVICE_ONE_PASS, Network, _bearing
+from crewcut.solve.profile import Profile
+from crewcut.solve.result import Route, RouteTotals, Traversal
 
 ORIGIN = (-30.5, 45.2)
 ROW_NAMES = ("Tallow Row", "Mere Street", "Candle Walk", "Wick Lane", "Lantern Way")

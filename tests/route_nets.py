@@ -6,8 +6,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from solve.geodesy import geodesic_lengths, project
-from solve.network import SERVICE_BOTH_SIDES, Network
+from crewcut.solve.network.geodesy import geodesic_lengths, project
+from crewcut.solve.network.model import SERVICE_BOTH_SIDES, Network
 
 ORIGIN = (-30.5, 45.2)
 DEG_PER_M = 1.0 / 111_000.0  # rough, only to place test nodes on a grid

@@ -14,10 +14,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from fleetnets import check_plan_independently, grid_network, nx_lower_bound, territory_connected
-from partition.crews import resolve_crews
-from partition.planner import plan_fleet
-from partition.verify import check_plan
-from solve.profile import Crew, Profile
+from crewcut.fleet.crews import resolve_crews
+from crewcut.fleet.planner import plan_fleet
+from crewcut.plans.verify import check_plan
+from crewcut.solve.profile import Crew, Profile
 
 
 def _plan(net, profile, crews, **kw):

@@ -14,16 +14,16 @@ import numpy as np
 import pytest
 
 from fleetnets import check_plan_independently, grid_network, nx_lower_bound
-from partition.baseline import route_first_split
-from partition.crews import resolve_crews
-from partition.planfile import CrewPlan, build_plan
-from partition.planner import plan_fleet
-from solve.profile import Profile
+from crewcut.fleet.baseline import route_first_split
+from crewcut.fleet.crews import resolve_crews
+from crewcut.plans.planfile import CrewPlan, build_plan
+from crewcut.fleet.planner import plan_fleet
+from crewcut.solve.profile import Profile
 
 
 @pytest.mark.parametrize("seed,k", [(1, 2), (2, 3), (3, 4), (4, 3)])
 def test_baseline_valid_and_compared(seed, k):
-    from solve.route import plan_route
+    from crewcut.solve.route import plan_route
 
     profile = Profile(shift_limit_min=1440.0)
     net = grid_network(9, 6, seed)
@@ -44,8 +44,8 @@ def test_baseline_valid_and_compared(seed, k):
         for t in r.traversals[1:]:
             assert t.turn != "start"
             assert t.turn_minutes == pytest.approx(profile.turn_penalty_s.get(t.turn, 0.0) / 60.0)
-    # k closed walks that together serve every pass once: at least the forced turns (solve.bounds proof)
-    from solve.bounds import turn_lower_bound
+    # k closed walks that together serve every pass once: at least the forced turns (crewcut.solve.postman.bounds proof)
+    from crewcut.solve.postman.bounds import turn_lower_bound
 
     assert sum(r.totals.turn_min for r in pieces) >= turn_lower_bound(net, profile, k) - 1e-9
     # split rule: each piece is at most a k-th of the tour (less 2 c_max) plus one traversal,
@@ -64,7 +64,7 @@ def test_baseline_valid_and_compared(seed, k):
 def _c_max(net, profile, depot) -> float:
     import networkx as nx
 
-    from solve.costs import deadhead_minutes
+    from crewcut.solve.costs import deadhead_minutes
 
     dm = deadhead_minutes(net, profile)
     g = nx.DiGraph()

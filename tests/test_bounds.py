@@ -10,10 +10,10 @@ import numpy as np
 import pytest
 
 from netfactory import SERVICE_BOTH_SIDES, SERVICE_NONE, SERVICE_ONE_PASS, make_network, metre_profile, random_connected
-from solve.bounds import fleet_lower_bound, single_crew_lower_bound
-from solve.errors import InputError
-from solve.eulerize import eulerize
-from solve.tasks import build_deadhead, build_tasks
+from crewcut.solve.postman.bounds import fleet_lower_bound, single_crew_lower_bound
+from crewcut.solve.errors import InputError
+from crewcut.solve.postman.eulerize import eulerize
+from crewcut.solve.postman.tasks import build_deadhead, build_tasks
 from test_tjoin import nx_tjoin_cost
 
 
@@ -57,8 +57,8 @@ def test_single_crew_bound_below_any_route():
             aug = eulerize(tasks, arcs, 0, n, time_limit_s=1.0)
         except InputError:
             continue
-        from solve.bounds import turn_lower_bound
-        from solve.route import plan_route
+        from crewcut.solve.postman.bounds import turn_lower_bound
+        from crewcut.solve.route import plan_route
 
         # the driving part against this Eulerization; the whole bound against a whole route
         turns = turn_lower_bound(net, prof, 1)
@@ -133,12 +133,12 @@ def _brute_force(net, prof, depot: int, weight_turns_only: bool,
     ``weight_turns_only``; None when no closed walk serves everything.
     ``passes``: the passes to serve (default: every required pass).
     Exhaustive search is common practice, no source; turn kinds come from
-    solve.turns, the same rule the routes are charged by.
+    crewcut.solve.circuits.turns, the same rule the routes are charged by.
     """
     import heapq
 
-    from solve.costs import deadhead_minutes, service_minutes
-    from solve.turns import TurnModel
+    from crewcut.solve.costs import deadhead_minutes, service_minutes
+    from crewcut.solve.circuits.turns import TurnModel
 
     model = TurnModel.from_network(net, prof)
     tail, head, seg, fwd = net.arcs(prof.ignore_oneway)
@@ -182,7 +182,7 @@ def _brute_force(net, prof, depot: int, weight_turns_only: bool,
 
 
 def test_turn_bound_below_brute_force_optimum():
-    from solve.bounds import turn_lower_bound
+    from crewcut.solve.postman.bounds import turn_lower_bound
 
     rng = np.random.default_rng(1978)
     checked = 0
@@ -240,9 +240,9 @@ def test_two_crew_bound_below_brute_force_optimum():
 
 
 def test_turn_bound_below_actual_routes():
-    from solve.bounds import turn_lower_bound
-    from solve.profile import Profile
-    from solve.route import plan_route
+    from crewcut.solve.postman.bounds import turn_lower_bound
+    from crewcut.solve.profile import Profile
+    from crewcut.solve.route import plan_route
 
     rng = np.random.default_rng(73)
     checked = 0
@@ -270,13 +270,13 @@ def test_dead_end_forces_a_u_turn():
     # (90 s); arriving at 1 up the stem forces a turn, at best right (with traffic,
     # 8 s). Each route's last arrival is exempt: one crew leaves 8 s, two leave none.
     from route_nets import ORIGIN, make_network as make_geo
-    from solve.bounds import turn_lower_bound
+    from crewcut.solve.postman.bounds import turn_lower_bound
 
     d = 0.001
     lonlat = np.array(ORIGIN) + np.array([[0, -d], [0, 0], [-d, 0], [d, 0]])
     net = make_geo(lonlat, [(0, 1, False, SERVICE_BOTH_SIDES), (1, 2, False, SERVICE_NONE),
                             (1, 3, False, SERVICE_NONE)])
-    from solve.profile import Profile
+    from crewcut.solve.profile import Profile
 
     prof = Profile()
     # two passes: 0->1 arrives on the stem at 1 (a turn, 8 s with traffic), 1->0 arrives at the dead end (90 s)

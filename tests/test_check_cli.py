@@ -1,4 +1,4 @@
-"""``crewcut check`` and :mod:`solve.check`: summaries, bad input, reachability.
+"""``crewcut check`` and :mod:`crewcut.solve.network.diagnose`: summaries, bad input, reachability.
 
 Bad input: every case asserts the message, exit status 2, no traceback, nothing
 written and the input file unchanged. Reachability is checked against networkx's
@@ -17,10 +17,10 @@ import numpy as np
 import pytest
 
 from geojson_helpers import GEOD, collection, feature, grid, offset, write
-from partition.cli import main
-from solve.check import check_network
-from solve.profile import Profile
-from solve.readers import read_network
+from crewcut.cli.main import main
+from crewcut.solve.network.diagnose import check_network
+from crewcut.solve.profile import Profile
+from crewcut.solve.readers import read_network
 
 ROOT = Path(__file__).resolve().parent.parent
 

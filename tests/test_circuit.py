@@ -1,4 +1,4 @@
-"""Euler circuits and turns (solve.circuit, solve.turns), checked against outside references.
+"""Euler circuits and turns (crewcut.solve.circuits.euler, crewcut.solve.circuits.turns), checked against outside references.
 
 References used: networkx (``eulerize``, ``is_eulerian``), brute-force enumeration
 (every pairing at a node, every Euler circuit of a tiny graph), and plain facts of
@@ -17,10 +17,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from route_nets import assert_closed_walk, grid_network, make_network
-from solve.circuit import _Pairs, _best_pairing, euler_circuit, hierholzer
-from solve.profile import Profile
-from solve.result import TURNS
-from solve.turns import TurnModel
+from crewcut.solve.circuits.euler import _Pairs, _best_pairing, euler_circuit, hierholzer
+from crewcut.solve.profile import Profile
+from crewcut.solve.result import TURNS
+from crewcut.solve.circuits.turns import TurnModel
 
 
 def both_ways(net, segs=None):

@@ -12,8 +12,8 @@ import shapely
 from pyproj import Geod
 from shapely.geometry import shape
 
-from partition.cli import main
-from partition.planfile import write_plan
+from crewcut.cli.main import main
+from crewcut.plans.planfile import write_plan
 from planfactory import make_plan
 
 GEOD = Geod(ellps="WGS84")
@@ -24,8 +24,8 @@ def plan(request, tmp_path_factory):
     """A hand-made plan, and a plan made by the project's own planner on a small generated town."""
     if request.param == "test-factory":
         return make_plan(k=3)
-    pytest.importorskip("solve.eulerize", reason="the route engine (solve.eulerize) is not in this tree yet")
-    from solve.towngen import write_town
+    pytest.importorskip("crewcut.solve.postman.eulerize", reason="the route engine (crewcut.solve.postman.eulerize) is not in this tree yet")
+    from crewcut.demo.towngen import write_town
 
     d = tmp_path_factory.mktemp("planned")
     write_town(d / "town.geojson", 200, 0)

@@ -2,7 +2,7 @@
 
 Reference: ``nx.network_simplex`` on the deadhead digraph with node demands
 ``out - in`` of the required arcs (Edmonds and Johnson 1973's flow formulation),
-computed independently of solve.flow, on integer lengths so it is exact.
+computed independently of crewcut.solve.postman.flow, on integer lengths so it is exact.
 """
 from __future__ import annotations
 
@@ -11,10 +11,10 @@ import numpy as np
 import pytest
 
 from netfactory import SERVICE_NONE, SERVICE_ONE_PASS, assert_valid, make_network, metre_profile, random_strong
-from solve.errors import InputError
-from solve.eulerize import eulerize
-from solve.flow import min_cost_flow
-from solve.tasks import build_deadhead, build_tasks
+from crewcut.solve.errors import InputError
+from crewcut.solve.postman.eulerize import eulerize
+from crewcut.solve.postman.flow import min_cost_flow
+from crewcut.solve.postman.tasks import build_deadhead, build_tasks
 
 
 def nx_balance_cost(n, u, v, w, req_tail, req_head) -> float:
@@ -80,6 +80,6 @@ def test_one_way_trap_is_reported():
 
 
 def test_flow_infeasible_is_reported():
-    from solve.flow import InfeasibleFlow
+    from crewcut.solve.postman.flow import InfeasibleFlow
     with pytest.raises(InfeasibleFlow):
         min_cost_flow([0], [1], [1.0], np.array([-1, 1]))  # needs 1 -> 0, only 0 -> 1 exists

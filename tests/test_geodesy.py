@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 from pyproj import Geod
 
-from solve.geodesy import geodesic_lengths, project, unproject
+from crewcut.solve.network.geodesy import geodesic_lengths, project, unproject
 
 GEOD = Geod(ellps="WGS84")
 

@@ -12,13 +12,13 @@ import osmium
 import pytest
 from pyproj import Geod
 
-from partition.cli import main
-from solve.profile import builtin_profile
-from solve.readers import read_network
+from crewcut.cli.main import main
+from crewcut.solve.profile import builtin_profile
+from crewcut.solve.readers import read_network
 
 DRIVABLE = {"motorway", "trunk", "primary", "secondary", "tertiary", "unclassified", "residential",
             "living_street", "service", "motorway_link", "trunk_link", "primary_link", "secondary_link",
-            "tertiary_link", "road"}  # the shipped curb-sweeping profile's list (solve.profile default)
+            "tertiary_link", "road"}  # the shipped curb-sweeping profile's list (crewcut.solve.profile default)
 
 
 class _Reference(osmium.SimpleHandler):

@@ -7,8 +7,8 @@ import networkx as nx
 import numpy as np
 from scipy.stats import spearmanr
 
-from partition.cli import main
-from solve.layout import path_layout
+from crewcut.cli.main import main
+from crewcut.solve.network.layout import path_layout
 
 
 def _random_street_graph(seed: int) -> nx.Graph:

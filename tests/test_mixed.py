@@ -16,9 +16,9 @@ from hypothesis import strategies as st
 
 from netfactory import (SERVICE_BOTH_SIDES, SERVICE_NONE, SERVICE_ONE_PASS, assert_valid, make_network,
                         metre_profile, random_connected)
-from solve.eulerize import eulerize
-from solve.mixed import solve_mixed
-from solve.tasks import build_deadhead, build_tasks
+from crewcut.solve.postman.eulerize import eulerize
+from crewcut.solve.postman.mixed import solve_mixed
+from crewcut.solve.postman.tasks import build_deadhead, build_tasks
 
 
 def strongly_connected(net, prof) -> bool:
@@ -150,7 +150,7 @@ def mixed_networks(draw):
 @settings(max_examples=80, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(mixed_networks())
 def test_invariants_on_generated_networks(case):
-    from solve.errors import InputError
+    from crewcut.solve.errors import InputError
     net, prof, depot = case
     tasks, arcs = build_tasks(net, prof), build_deadhead(net, prof)
     try:

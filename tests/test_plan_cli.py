@@ -13,8 +13,8 @@ import numpy as np
 import pytest
 
 from fleetnets import check_plan_independently, grid_lines, nx_lower_bound, territory_connected, write_geojson
-from partition.cli import main
-from solve.network import RawLine
+from crewcut.cli.main import main
+from crewcut.solve.network.model import RawLine
 
 
 def _run(capsys, *argv) -> tuple[int, str, str]:
@@ -130,9 +130,9 @@ def _helsinki_reachable(pbf: Path, path: Path) -> None:
     """
     import networkx as nx
 
-    from solve.network import SERVICE_LABELS
-    from solve.profile import Profile
-    from solve.readers import read_network
+    from crewcut.solve.network.model import SERVICE_LABELS
+    from crewcut.solve.profile import Profile
+    from crewcut.solve.readers import read_network
 
     net = read_network(pbf, Profile())
     depot, _ = net.nearest_node(24.94, 60.17)

@@ -6,10 +6,10 @@ import json
 
 import pytest
 
-from partition.cli import main
-from partition.planfile import read_plan, write_plan
+from crewcut.cli.main import main
+from crewcut.plans.planfile import read_plan, write_plan
 from planfactory import make_plan
-from solve.errors import InputError
+from crewcut.solve.errors import InputError
 
 
 def _damage(plan: dict, how: str) -> dict:
@@ -56,7 +56,7 @@ def test_atomic_write_many_all_or_none(tmp_path):
 
     No-partial-output rule of this project (common practice, no source).
     """
-    from partition.planfile import atomic_write_many
+    from crewcut.plans.planfile import atomic_write_many
 
     blocker = tmp_path / "not-a-folder"
     blocker.write_text("x")

@@ -9,10 +9,10 @@ import numpy as np
 import pytest
 
 from geojson_helpers import GEOD, collection, feature, grid, offset, write
-from solve.errors import InputError
-from solve.network import SERVICE_BOTH_SIDES, SERVICE_EACH_DIRECTION, SERVICE_NONE, SERVICE_ONE_PASS
-from solve.profile import Profile
-from solve.readers import file_kind, read_network
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import SERVICE_BOTH_SIDES, SERVICE_EACH_DIRECTION, SERVICE_NONE, SERVICE_ONE_PASS
+from crewcut.solve.profile import Profile
+from crewcut.solve.readers import file_kind, read_network
 
 PROFILE = Profile()
 

@@ -1,7 +1,7 @@
 """``crewcut rebalance``: new plans for absent or extra crews, closed or new streets, shorter shifts.
 
 Every rebalanced plan is checked from outside the rebalancer: ``crewcut verify``
-(partition.commands.verify through partition.cli.main) against the network
+(crewcut.cli.commands.verify through crewcut.cli.main.main) against the network
 file, the independent plan checker of tests/fleetnets.py (plain counting and
 networkx), connected territories (networkx), and the longest shift against the
 min-max lower bound recomputed with networkx for the crews at work
@@ -24,8 +24,8 @@ import numpy as np
 import pytest
 
 from fleetnets import check_plan_independently, grid_lines, nx_lower_bound, territory_connected, write_geojson
-from partition.cli import main
-from solve.network import RawLine
+from crewcut.cli.main import main
+from crewcut.solve.network.model import RawLine
 
 DEPOT = "-30.5,45.2"
 

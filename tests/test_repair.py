@@ -12,11 +12,11 @@ import numpy as np
 import pytest
 
 from geojson_helpers import GEOD, collection, feature, grid, offset
-from solve.errors import InputError
-from solve.network import SERVICE_BOTH_SIDES, SERVICE_NONE, SERVICE_ONE_PASS
-from solve.profile import Profile
-from solve.readers.geojson import features_to_lines
-from solve.repair import build_network
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import SERVICE_BOTH_SIDES, SERVICE_NONE, SERVICE_ONE_PASS
+from crewcut.solve.profile import Profile
+from crewcut.solve.readers.geojson import features_to_lines
+from crewcut.solve.network.repair import build_network
 
 PROFILE = Profile()  # built-in defaults: snap 1 m, split at touch on
 
@@ -167,7 +167,7 @@ def test_grid_topology_matches_networkx_grid():
 
 
 def test_plain_network_without_geometry():
-    from solve.network import RawLine
+    from crewcut.solve.network.model import RawLine
 
     lines = [RawLine("r1", None, from_label="A", to_label="B", length_m=120.0),
              RawLine("r2", None, from_label="B", to_label="C", length_m=80.0, oneway=1),

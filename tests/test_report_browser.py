@@ -9,9 +9,9 @@ import zlib
 
 import pytest
 
-from partition.cli import main
-from partition.planfile import write_plan
-from partition.svgmap import PALETTE
+from crewcut.cli.main import main
+from crewcut.plans.planfile import write_plan
+from crewcut.reports.svgmap import PALETTE
 from planfactory import make_plan
 
 BROWSERS = ("chromium", "chromium-browser")  # Debian's package installs /usr/bin/chromium

@@ -1,4 +1,4 @@
-"""One crew's route (solve.route.plan_route) and ``crewcut route``, checked from outside.
+"""One crew's route (crewcut.solve.route.plan_route) and ``crewcut route``, checked from outside.
 
 Every route is checked from the network arrays and networkx alone
 (``route_nets.assert_closed_walk``), and the passes it serves are counted against
@@ -17,10 +17,10 @@ from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
 from route_nets import ORIGIN, assert_closed_walk, grid_network, make_network
-from solve.errors import InputError
-from solve.network import SERVICE_BOTH_SIDES, SERVICE_EACH_DIRECTION, SERVICE_NONE, SERVICE_ONE_PASS
-from solve.profile import Profile
-from solve.route import plan_route
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import SERVICE_BOTH_SIDES, SERVICE_EACH_DIRECTION, SERVICE_NONE, SERVICE_ONE_PASS
+from crewcut.solve.profile import Profile
+from crewcut.solve.route import plan_route
 
 
 def walk_arrays(net, route):
@@ -36,7 +36,7 @@ def expected_passes(net, profile, segments=None):
     """Required service traversals per (segment, direction), from the trade's rules.
 
     Written out here from design.md section 2 and the network arrays, not from
-    solve.costs. Keys: (seg, "fwd"|"bwd"|"any").
+    crewcut.solve.costs. Keys: (seg, "fwd"|"bwd"|"any").
     """
     want = Counter()
     segs = range(net.n_segments) if segments is None else segments
@@ -212,7 +212,7 @@ def test_property_routes_on_mixed_networks(case, turn_aware):
 # --------------------------------------------------------------- real streets
 def test_helsinki_whole_extract(helsinki_pbf):
     # OpenStreetMap data (c) OpenStreetMap contributors, ODbL; see tests/conftest.py
-    from solve.readers import read_network
+    from crewcut.solve.readers import read_network
 
     prof = Profile()
     net = read_network(helsinki_pbf, prof)
@@ -246,7 +246,7 @@ def _grid_geojson(path, net):
 
 
 def test_cli_route_end_to_end(tmp_path):
-    from partition.cli import main
+    from crewcut.cli.main import main
 
     src = _grid_geojson(tmp_path / "town.geojson", grid_network(4, 5, oneway=[0, 9]))
     before = src.read_bytes()
@@ -278,7 +278,7 @@ def test_cli_route_end_to_end(tmp_path):
     (["--depot", "garbage"], "not LON,LAT"),
 ])
 def test_cli_route_bad_input_exits_2_and_writes_nothing(tmp_path, capsys, extra, message):
-    from partition.cli import main
+    from crewcut.cli.main import main
 
     src = _grid_geojson(tmp_path / "town.geojson", grid_network(3, 3))
     out = tmp_path / "out"

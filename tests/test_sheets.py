@@ -1,4 +1,4 @@
-"""Route sheets (``partition.sheets`` and ``crewcut sheets``)."""
+"""Route sheets (``crewcut.reports.sheets`` and ``crewcut sheets``)."""
 from __future__ import annotations
 
 import itertools
@@ -6,9 +6,9 @@ import itertools
 import pytest
 from pyproj import Geod
 
-from partition.cli import main
-from partition.planview import view
-from partition.sheets import COMPASS, compass, crew_sheets, initial_bearing, route_sheet, turn_words
+from crewcut.cli.main import main
+from crewcut.plans.view import view
+from crewcut.reports.sheets import COMPASS, compass, crew_sheets, initial_bearing, route_sheet, turn_words
 from planfactory import make_plan, plan, plan_path  # noqa: F401 (shared fixtures)
 
 
@@ -54,7 +54,7 @@ def test_cumulative_time_adds_up_to_route_total(plan):
         for ln in steps:
             assert ln.elapsed_min == pytest.approx(prev + ln.minutes)
             prev = ln.elapsed_min
-        # the route total recorded in the plan (solve.result.RouteTotals, rounded to 4 decimals)
+        # the route total recorded in the plan (crewcut.solve.result.RouteTotals, rounded to 4 decimals)
         assert prev == pytest.approx(crew["routes"][0]["totals"]["total_min"], abs=1e-3)
         assert sheet.lines[-1].elapsed_min == prev
         assert sum(ln.metres for ln in steps) == pytest.approx(sum(t["metres"] for t in crew["routes"][0]["traversals"]))

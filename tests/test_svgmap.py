@@ -1,4 +1,4 @@
-"""SVG maps (``partition.svgmap`` and ``crewcut map``)."""
+"""SVG maps (``crewcut.reports.svgmap`` and ``crewcut map``)."""
 from __future__ import annotations
 
 import itertools
@@ -8,11 +8,11 @@ import xml.etree.ElementTree as ET
 import numpy as np
 import pytest
 
-from partition.cli import main
-from partition.planview import view
-from partition.svgmap import BACKGROUND, DEADHEAD, INK, PALETTE, route_svg, territory_svg
+from crewcut.cli.main import main
+from crewcut.plans.view import view
+from crewcut.reports.svgmap import BACKGROUND, DEADHEAD, INK, PALETTE, route_svg, territory_svg
 from planfactory import plan, plan_path  # noqa: F401 (shared fixtures)
-from solve.errors import InputError
+from crewcut.solve.errors import InputError
 
 SVG = "{http://www.w3.org/2000/svg}"
 

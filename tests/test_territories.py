@@ -14,15 +14,15 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from fleetnets import grid_lines, grid_network
-from partition.crews import resolve_crews
-from partition.planner import plan_fleet
-from partition.seeding import seed_territories
-from partition.streets import build_street_graph, depot_travel, round_trips
-from partition.territories import grow_territories, territories_of
-from solve.errors import InputError
-from solve.network import RawLine
-from solve.profile import Crew, Profile
-from solve.repair import build_network
+from crewcut.fleet.crews import resolve_crews
+from crewcut.fleet.planner import plan_fleet
+from crewcut.fleet.seeding import seed_territories
+from crewcut.fleet.streets import build_street_graph, depot_travel, round_trips
+from crewcut.fleet.territories import grow_territories, territories_of
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import RawLine
+from crewcut.solve.profile import Crew, Profile
+from crewcut.solve.network.repair import build_network
 
 
 def _grow(net, profile, crews, seed=0):
@@ -196,8 +196,8 @@ def _border_total(bt, owner, k) -> float:
 
 @pytest.mark.parametrize("seed,k", [(3, 3), (11, 4)])
 def test_polish_borders_keeps_territories_and_cuts_border_turns(seed, k):
-    from partition.territories import BorderTurns, polish_borders, street_runs
-    from solve.turns import TurnModel
+    from crewcut.fleet.territories import BorderTurns, polish_borders, street_runs
+    from crewcut.solve.circuits.turns import TurnModel
 
     profile = Profile(shift_limit_min=1440.0)
     net = grid_network(9, 7, seed)
@@ -240,8 +240,8 @@ def test_polish_borders_keeps_territories_and_cuts_border_turns(seed, k):
 @pytest.mark.parametrize("seed", [2, 5, 9])
 def test_tidy_handover_only_lowers_border_turns_and_moves_only_the_giver(seed):
     """A border batch, tidied, forces no more turns than as grown (brute-force pairing, itertools)."""
-    from partition.territories import BorderTurns, tidy_handover
-    from solve.turns import TurnModel
+    from crewcut.fleet.territories import BorderTurns, tidy_handover
+    from crewcut.solve.circuits.turns import TurnModel
 
     profile = Profile(shift_limit_min=1440.0)
     net = grid_network(9, 7, seed)

@@ -2,7 +2,7 @@
 
 Reference: networkx shortest paths between the odd nodes, then
 ``nx.min_weight_matching`` on their complete graph (Edmonds and Johnson 1973's
-reduction), computed independently of solve.tjoin.
+reduction), computed independently of crewcut.solve.postman.tjoin.
 """
 from __future__ import annotations
 
@@ -11,9 +11,9 @@ import numpy as np
 import pytest
 
 from netfactory import assert_valid, make_network, metre_profile, random_connected
-from solve.eulerize import eulerize
-from solve.tasks import build_deadhead, build_tasks
-from solve.tjoin import min_tjoin
+from crewcut.solve.postman.eulerize import eulerize
+from crewcut.solve.postman.tasks import build_deadhead, build_tasks
+from crewcut.solve.postman.tjoin import min_tjoin
 
 
 def nx_tjoin_cost(n, u, v, w, t_nodes) -> float:

@@ -18,8 +18,8 @@ import pytest
 import shapely
 from shapely.geometry import LineString
 
-from solve import towngen
-from solve.errors import InputError
+from crewcut.demo import towngen
+from crewcut.solve.errors import InputError
 
 ROOT = Path(__file__).resolve().parent.parent
 EXAMPLE = ROOT / "examples" / "tallowmere.geojson"
@@ -211,13 +211,13 @@ def test_example_files_come_from_the_generator():
 
 
 def test_example_config_loads_with_crews_on_streets():
-    from solve.profile import load_profile
+    from crewcut.solve.profile import load_profile
 
     prof = load_profile(EXAMPLE_CONFIG)
     # Enough crews that the sweeping itself (service time alone, a lower bound on
     # the work) fits in their shifts with room for driving and turns.
-    from solve.costs import required_passes, service_minutes
-    from solve.readers import read_network
+    from crewcut.solve.costs import required_passes, service_minutes
+    from crewcut.solve.readers import read_network
 
     net = read_network(EXAMPLE, prof)
     work = float((required_passes(net, prof).total * service_minutes(net, prof)).sum())
@@ -233,8 +233,8 @@ def test_example_config_loads_with_crews_on_streets():
 
 
 def test_example_loads_without_errors():
-    from solve.profile import load_profile
-    from solve.readers import read_network
+    from crewcut.solve.profile import load_profile
+    from crewcut.solve.readers import read_network
 
     net = read_network(EXAMPLE, load_profile(EXAMPLE_CONFIG))
     assert not [f for f in net.findings if f.severity == "error"]
@@ -244,7 +244,7 @@ def test_example_loads_without_errors():
 
 # ------------------------------------------------------------------ crewcut demo
 def test_demo_writes_the_example_town_and_config(tmp_path, capsys):
-    from partition.cli import main
+    from crewcut.cli.main import main
 
     out = tmp_path / "demo"
     assert main(["demo", "--out", str(out), "--only-town"]) == 0
@@ -261,7 +261,7 @@ def test_demo_writes_the_example_town_and_config(tmp_path, capsys):
     (["--seed", "-2"], "seed must be"),
 ])
 def test_demo_bad_numbers_exit_2_and_write_nothing(tmp_path, capsys, argv, words):
-    from partition.cli import main
+    from crewcut.cli.main import main
 
     out = tmp_path / "demo"
     assert main(["demo", "--out", str(out), *argv]) == 2
@@ -271,7 +271,7 @@ def test_demo_bad_numbers_exit_2_and_write_nothing(tmp_path, capsys, argv, words
 
 
 def test_demo_out_that_is_a_file_exits_2_and_leaves_it(tmp_path, capsys):
-    from partition.cli import main
+    from crewcut.cli.main import main
 
     f = tmp_path / "taken"
     f.write_text("keep me", encoding="utf-8")
@@ -282,7 +282,7 @@ def test_demo_out_that_is_a_file_exits_2_and_leaves_it(tmp_path, capsys):
 
 @pytest.mark.slow
 def test_demo_runs_its_stages_on_a_small_town(tmp_path, capsys):
-    from partition.cli import main
+    from crewcut.cli.main import main
 
     out = tmp_path / "demo"
     code = main(["demo", "--out", str(out), "--segments", "300", "--seed", "1"])

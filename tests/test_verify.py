@@ -13,9 +13,9 @@ import copy
 import pytest
 
 from fleetnets import check_plan_independently
-from partition.verify import check_plan
+from crewcut.plans.verify import check_plan
 from planfactory import grid_network, make_plan
-from solve.profile import Profile
+from crewcut.solve.profile import Profile
 
 
 def _profile():
@@ -180,7 +180,7 @@ def test_malformed_records_are_violations_not_crashes(valid, edit):
 
 # ----------------------------------------------------------------------------- the JSON Schema
 def _validate(doc, schema, root, path="$"):
-    """The subset of JSON Schema draft 2020-12 that partition/plan.schema.json uses.
+    """The subset of JSON Schema draft 2020-12 that partition/plans/plan.schema.json uses.
 
     jsonschema is not a dependency; this small walker follows the keyword
     definitions of the draft (json-schema.org, "JSON Schema Validation", 2020-12).
@@ -244,7 +244,7 @@ def test_plan_matches_its_schema(valid):
     import json
     from pathlib import Path
 
-    schema = json.loads((Path(__file__).resolve().parent.parent / "partition" / "plan.schema.json").read_text())
+    schema = json.loads((Path(__file__).resolve().parent.parent / "partition" / "plans" / "plan.schema.json").read_text())
     assert schema["$schema"] == "https://json-schema.org/draft/2020-12/schema"
     plan = json.loads(json.dumps(valid[0]))  # as written to disk
     assert list(_validate(plan, schema, schema)) == []

@@ -1,4 +1,4 @@
-"""The workload table (``partition.workload`` and ``crewcut table``)."""
+"""The workload table (``crewcut.reports.workload`` and ``crewcut table``)."""
 from __future__ import annotations
 
 import csv
@@ -10,8 +10,8 @@ import pytest
 from pyproj import Geod
 from rich.console import Console
 
-from partition.cli import main
-from partition.workload import COLUMNS, workload_rows, workload_summary, workload_table
+from crewcut.cli.main import main
+from crewcut.reports.workload import COLUMNS, workload_rows, workload_summary, workload_table
 from planfactory import plan, plan_path  # noqa: F401 (shared fixtures)
 
 
@@ -25,7 +25,7 @@ def test_rows_follow_the_traversals(plan):
         assert r["deadhead_km"] == pytest.approx(sum(t["metres"] for t in trav if t["mode"] == "deadhead") / 1000)
         assert r["u_turns"] == sum(t["turn"] == "u_turn" for t in trav)
         assert r["across_turns"] == sum(t["turn"] == "across_traffic" for t in trav)
-        # shift = the route totals recorded in the plan (solve.result.RouteTotals), 4-decimal rounding
+        # shift = the route totals recorded in the plan (crewcut.solve.result.RouteTotals), 4-decimal rounding
         assert r["shift_h"] * 60 == pytest.approx(sum(x["totals"]["total_min"] for x in c["routes"]), abs=1e-3)
         assert r["service_h"] + r["driving_h"] == pytest.approx(r["shift_h"])
         assert r["limit_pct"] == pytest.approx(100 * r["shift_h"] * 60 / c["shift_limit_min"])

@@ -3,22 +3,22 @@
 =================== ============================================== ==========================
 extension           format                                         module
 =================== ============================================== ==========================
-.geojson, .json     RFC 7946 FeatureCollection of (Multi)LineString :mod:`solve.readers.geojson`
-.osm                OpenStreetMap XML                               :mod:`solve.readers.osm`
-.osm.pbf, .pbf      OpenStreetMap protocol buffer binary            :mod:`solve.readers.osm`
-.csv                edge list ``from,to,length_m[,...]``            :mod:`solve.readers.csvedges`
+.geojson, .json     RFC 7946 FeatureCollection of (Multi)LineString :mod:`crewcut.solve.readers.geojson`
+.osm                OpenStreetMap XML                               :mod:`crewcut.solve.readers.osm`
+.osm.pbf, .pbf      OpenStreetMap protocol buffer binary            :mod:`crewcut.solve.readers.osm`
+.csv                edge list ``from,to,length_m[,...]``            :mod:`crewcut.solve.readers.csvedges`
 =================== ============================================== ==========================
 
-Every reader produces :class:`~solve.network.RawLine` objects and hands them to
-:func:`solve.repair.build_network`. Files are only read, never written.
+Every reader produces :class:`~crewcut.solve.network.model.RawLine` objects and hands them to
+:func:`crewcut.solve.network.repair.build_network`. Files are only read, never written.
 """
 from __future__ import annotations
 
 from pathlib import Path
 
-from ..errors import InputError
-from ..network import Network
-from ..profile import Profile
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import Network
+from crewcut.solve.profile import Profile
 
 ALLOWED = ".geojson, .json, .osm, .osm.pbf, .pbf, .csv"
 
@@ -42,7 +42,7 @@ def file_kind(path: str | Path) -> str:
 def read_network(path: str | Path, profile: Profile) -> Network:
     """Read a street network file and repair its topology.
 
-    Raises :class:`~solve.errors.InputError` for a missing file, an unknown
+    Raises :class:`~crewcut.solve.errors.InputError` for a missing file, an unknown
     extension or any problem in the data, naming the feature concerned.
     """
     path = Path(path)
@@ -53,13 +53,13 @@ def read_network(path: str | Path, profile: Profile) -> Network:
         raise InputError(f"'{path}' is not a file", f"give a street network file ({ALLOWED})")
     kind = file_kind(path)
     if kind == "geojson":
-        from .geojson import read_geojson
+        from crewcut.solve.readers.geojson import read_geojson
 
         return read_geojson(path, profile)
     if kind == "csv":
-        from .csvedges import read_csv_edges
+        from crewcut.solve.readers.csvedges import read_csv_edges
 
         return read_csv_edges(path, profile)
-    from .osm import read_osm
+    from crewcut.solve.readers.osm import read_osm
 
     return read_osm(path, profile)

@@ -15,18 +15,18 @@ import io
 import math
 from pathlib import Path
 
-from ..errors import InputError
-from ..network import Network, RawLine
-from ..profile import Profile
-from ..repair import build_network
-from .geojson import parse_closed, parse_oneway, parse_service, parse_speed
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import Network, RawLine
+from crewcut.solve.profile import Profile
+from crewcut.solve.network.repair import build_network
+from crewcut.solve.readers.geojson import parse_closed, parse_oneway, parse_service, parse_speed
 
 REQUIRED = ("from", "to", "length_m")
 OPTIONAL = ("id", "oneway", "name", "service", "class", "speed_kmh", "closed")
 
 
 def read_csv_edges(path: str | Path, profile: Profile) -> Network:
-    """Read a CSV edge list into a :class:`~solve.network.Network` without geometry."""
+    """Read a CSV edge list into a :class:`~crewcut.solve.network.model.Network` without geometry."""
     path = Path(path)
     try:
         text = path.read_bytes().decode("utf-8-sig")

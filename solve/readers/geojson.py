@@ -31,10 +31,10 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError
-from ..network import SERVICE_NAMES, Network, RawLine
-from ..profile import Profile
-from ..repair import build_network
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import SERVICE_NAMES, Network, RawLine
+from crewcut.solve.profile import Profile
+from crewcut.solve.network.repair import build_network
 
 ONEWAY_VALUES = {"yes": 1, "true": 1, "1": 1, "no": 0, "false": 0, "0": 0, "-1": -1}
 
@@ -162,7 +162,7 @@ def features_to_lines(doc, source: str) -> list[RawLine]:
 
 
 def read_geojson(path: str | Path, profile: Profile) -> Network:
-    """Read a GeoJSON street file into a repaired :class:`~solve.network.Network`."""
+    """Read a GeoJSON street file into a repaired :class:`~crewcut.solve.network.model.Network`."""
     path = Path(path)
     try:
         with open(path, "rb") as fh:

@@ -31,10 +31,10 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError
-from ..network import Finding, Network, RawLine
-from ..profile import Profile
-from ..repair import build_network
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import Finding, Network, RawLine
+from crewcut.solve.profile import Profile
+from crewcut.solve.network.repair import build_network
 
 ONEWAY_YES = ("yes", "1", "true")
 IMPLIED_ONEWAY_JUNCTIONS = ("roundabout", "circular")
@@ -90,7 +90,7 @@ def _collect(path: Path, highways: frozenset) -> list[tuple]:
 
 
 def read_osm(path: str | Path, profile: Profile) -> Network:
-    """Read drivable streets from an OpenStreetMap file into a :class:`~solve.network.Network`."""
+    """Read drivable streets from an OpenStreetMap file into a :class:`~crewcut.solve.network.model.Network`."""
     path = Path(path)
     ways = _collect(path, frozenset(profile.osm_highways))
     findings: list[Finding] = []

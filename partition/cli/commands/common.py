@@ -1,0 +1,105 @@
+"""Pieces several sub-commands share: the network arguments, the depot, the output folder, progress."""
+from __future__ import annotations
+
+import argparse
+from contextlib import contextmanager
+from pathlib import Path
+
+from crewcut.solve.network.depot import check_depot_node, snap_depot
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import Network
+from crewcut.solve.profile import Crew, Profile
+
+NETWORK_HELP = "street network: .geojson/.json, .osm, .osm.pbf/.pbf or .csv"
+CONFIG_HELP = "work profile (TOML); default: the shipped curb-sweeping profile"
+
+
+def add_network_arguments(parser: argparse.ArgumentParser, config_help: str = CONFIG_HELP) -> None:
+    """The NETWORK positional argument and --config, worded the same in every command."""
+    parser.add_argument("network", metavar="NETWORK", help=NETWORK_HELP)
+    parser.add_argument("--config", metavar="FILE", help=config_help)
+
+
+def out_folder(path: str | Path, what: str = "plan.json") -> Path:
+    """An output folder that may not exist yet but must not be a file."""
+    out = Path(path)
+    if out.exists() and not out.is_dir():
+        raise InputError(f"--out '{out}' is a file, not a folder", f"give a folder for {what}")
+    return out
+
+
+def depot_from_args(args, net: Network, profile: Profile) -> tuple[int, str, Crew | None] | None:
+    """The depot from --depot, else the first crew of --config; None when neither gives one.
+
+    Returns the node, a description for the screen, and the crew it came from.
+    """
+    from crewcut.cli.main import parse_lonlat
+
+    if getattr(args, "depot", None):
+        lon, lat = parse_lonlat(args.depot)
+        node = snap_depot(net, lon, lat, profile.depot_snap_max_m, who="--depot")
+        return node, f"node {node} (from --depot {args.depot})", None
+    if getattr(args, "config", None) and profile.crews:
+        crew = profile.crews[0]
+        who = f"{profile.source}: depot of crew '{crew.id}'"
+        if crew.depot_lonlat is not None:
+            node = snap_depot(net, *crew.depot_lonlat, profile.depot_snap_max_m, who=who)
+        else:
+            node = check_depot_node(net, crew.depot_node, who=who, usable=True)
+        return node, f"node {node} (crew '{crew.id}' in {profile.source})", crew
+    return None
+
+
+@contextmanager
+def stage_progress(ui):
+    """A progress callback ``(description, done, total)`` drawing one bar per stage.
+
+    The stage is the description's text before its first colon.
+    """
+    with ui.progress() as bar:
+        tasks: dict[str, int] = {}
+
+        def progress(desc: str, done: float, total: float) -> None:
+            stage = desc.split(":")[0]
+            if stage not in tasks:
+                tasks[stage] = bar.add_task(desc, total=total)
+            bar.update(tasks[stage], completed=done, total=total, description=desc)
+
+        yield progress
+
+
+def add_run_arguments(parser: argparse.ArgumentParser) -> None:
+    """--seed, --workers and --time-limit, worded the same for plan and rebalance."""
+    parser.add_argument("--seed", metavar="N", type=int, default=0,
+                        help="seed for every random choice; same input and seed, same plan (default 0)")
+    parser.add_argument("--workers", metavar="N", type=int, default=None,
+                        help="processes routing territories in parallel (default: all cores)")
+    parser.add_argument("--time-limit", metavar="SECONDS", type=float, default=None,
+                        help="wall-clock time the balancer may take (default: no limit; it stops at its "
+                             "tolerance or iteration limit, so the same input and seed give the same plan); "
+                             "a plan cut short by a time limit may differ between machines")
+
+
+def measure_table(title: str):
+    """An empty rich table with the columns measure, value, unit."""
+    from rich.table import Table
+
+    t = Table(title=title, title_justify="left")
+    t.add_column("measure")
+    t.add_column("value", justify="right")
+    t.add_column("unit")
+    return t
+
+
+def write_or_print(ui, out: str | None, text: str) -> int:
+    """Write ``text`` atomically to ``out`` and say so, or to stdout when no file is given."""
+    import sys
+
+    from crewcut.plans.planfile import atomic_write
+
+    if out:
+        atomic_write(out, text)
+        ui.out.print(f"wrote {out}")
+    else:
+        sys.stdout.write(text)
+    return 0

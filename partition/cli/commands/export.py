@@ -1,0 +1,22 @@
+"""``crewcut export PLAN --format geojson|gpx|csv``: the plan for GIS and navigation devices."""
+from __future__ import annotations
+
+
+from crewcut.reports.exports import FORMATS, export
+from crewcut.cli.commands.common import write_or_print
+from crewcut.plans.view import load
+
+NAME = "export"
+HELP = "export a plan as GeoJSON (territories and routes), GPX 1.1 (one track per crew, depots as waypoints) or CSV (per segment)"
+
+
+def add_arguments(p) -> None:
+    p.add_argument("plan", metavar="PLAN", help="plan.json written by 'crewcut plan' or 'crewcut route'")
+    p.add_argument("--format", choices=FORMATS, required=True, help="geojson, gpx or csv")
+    p.add_argument("--out", metavar="FILE", help="write here (all at once); default: stdout")
+
+
+def run(args, ui) -> int:
+    pv = load(args.plan)
+    text = export(pv, args.format)
+    return write_or_print(ui, args.out, text)

@@ -1,0 +1,66 @@
+"""``crewcut plan NETWORK``: territories, routes and balanced shifts for a fleet of crews."""
+from __future__ import annotations
+
+import argparse
+import time
+from pathlib import Path
+
+from crewcut.cli.commands.common import add_network_arguments, add_run_arguments, out_folder, stage_progress
+
+NAME = "plan"
+HELP = "split a street network into balanced territories, one per crew, and route every crew"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    add_network_arguments(parser, "work profile with [[crews]] (TOML); default: the shipped curb-sweeping profile")
+    parser.add_argument("--crews", metavar="K", type=int,
+                        help="plan for K identical crews sharing the depot given by --depot")
+    parser.add_argument("--depot", metavar="LON,LAT", help="the shared depot of --crews K")
+    parser.add_argument("--crew", metavar="ID", action="append", default=None,
+                        help="plan only for this crew of the config (repeat for several)")
+    add_run_arguments(parser)
+    parser.add_argument("--out", metavar="DIR", default="crewcut-out",
+                        help="folder for plan.json (default ./crewcut-out)")
+
+
+def run(args, ui) -> int:
+    from crewcut.solve.profile import load_profile
+    from crewcut.solve.readers import read_network
+
+    from crewcut.cli.main import parse_lonlat
+    from crewcut.fleet.crews import resolve_crews
+    from crewcut.plans.planfile import write_plan
+    from crewcut.fleet.planner import plan_fleet
+
+    profile = load_profile(args.config)
+    depot = parse_lonlat(args.depot) if args.depot else None
+    out_dir = out_folder(args.out)
+    net = read_network(args.network, profile)
+    crews = resolve_crews(net, profile, k=args.crews, depot_lonlat=depot, only=args.crew)
+    t0 = time.perf_counter()
+    with stage_progress(ui) as progress:
+        plan = plan_fleet(net, profile, crews, seed=args.seed, workers=args.workers,
+                          time_limit_s=args.time_limit, progress=progress, source=str(args.network))
+    seconds = time.perf_counter() - t0
+    path = write_plan(plan, out_dir / "plan.json")
+    _print(ui, plan, path, seconds)
+    return 0
+
+
+def _print(ui, plan: dict, path: Path, seconds: float) -> None:
+    # The workload table's caption already gives longest / mean, the bound, the gap
+    # and the crews over their limit; add only what the table does not say.
+    from crewcut.reports.workload import workload_table
+
+    s = plan["summary"]
+    ui.out.print(workload_table(plan))
+    ui.out.print("the gap is an upper bound on how far this heuristic plan is from the best possible")
+    b = s.get("balance", {})
+    if b:
+        ui.out.print(f"balancing: longest {b['before_longest_min'] / 60:.2f} h -> {b['after_longest_min'] / 60:.2f} h, "
+                     f"{b['moves_kept']} moves and {b['swaps_kept']} swaps kept of {b['trials']} tried, "
+                     f"stopped on {b['stop']}")
+    if s["over_limit"]:
+        ui.out.print(f"an estimated {s['crews_needed_estimate']} crews would fit their shift limits "
+                     f"(total shift minutes over the limits; not a plan)")
+    ui.out.print(f"plan written to {path} ({seconds:.1f} s)")

@@ -1,0 +1,166 @@
+"""``crewcut rebalance PLAN``: a new plan for the day's changes, keeping crews on the streets they know.
+
+Where the new plan goes: ``--out DIR`` writes ``DIR/plan.json`` (even over the
+input plan, when DIR is the input's own folder: that has to be asked for).
+Without ``--out`` it goes into a new folder next to the input plan,
+``rebalanced-1`` (or ``-2``, ``-3``, ... the first name not yet taken), so the
+input is never overwritten by default. Nothing is written when the input is bad.
+"""
+from __future__ import annotations
+
+import argparse
+import hashlib
+import re
+import time
+from pathlib import Path
+
+from crewcut.cli.commands.common import add_run_arguments, out_folder, stage_progress
+
+NAME = "rebalance"
+HELP = "re-plan for the day's changes (absent or extra crews, closed or new streets, shorter shifts), changing little"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("plan", metavar="PLAN", help="plan.json written by 'crewcut plan' or an earlier rebalance")
+    parser.add_argument("--network", metavar="FILE",
+                        help="the street network (default: the file the plan records, if it still exists); the "
+                             "plan's network, or that network with the --close streets marked closed")
+    parser.add_argument("--config", metavar="FILE",
+                        help="the work profile used for planning, when it read the network differently from the "
+                             "settings recorded in the plan (e.g. its OpenStreetMap road classes)")
+    parser.add_argument("--absent", metavar="CREW", action="append", default=[],
+                        help="a crew not at work today (repeat for several)")
+    parser.add_argument("--add-crew", metavar="ID@LON,LAT", action="append", default=[],
+                        help="an extra crew and its depot, e.g. relief@-30.5,45.2 (repeat for several)")
+    parser.add_argument("--close", metavar="SEGMENT_ID|FILE", action="append", default=[],
+                        help="a street closed today: a segment id (a whole number), a feature id, or a text file "
+                             "with one of them per line (repeat for several)")
+    parser.add_argument("--open", metavar="FILE",
+                        help="new streets (a street network file) joining the network at its intersections")
+    parser.add_argument("--shift-limit", metavar="CREW=MINUTES", action="append", default=[],
+                        help="today's shift limit of a crew in minutes (repeat for several)")
+    parser.add_argument("--stability", metavar="W", type=float, default=0.5,
+                        help="minutes of the longer shift a balancing move must save for every segment it takes "
+                             "from the crew that had it (default 0.5; 0: balance freely)")
+    over = parser.add_mutually_exclusive_group()
+    over.add_argument("--defer", action="store_true",
+                      help="when the work does not fit the shift limits, defer the lowest-priority streets")
+    over.add_argument("--overtime", action="store_true",
+                      help="when the work does not fit the shift limits, keep it all and report each crew's overtime")
+    add_run_arguments(parser)
+    parser.add_argument("--out", metavar="DIR",
+                        help="folder for the new plan.json (default: a new folder rebalanced-N next to PLAN)")
+
+
+def run(args, ui) -> int:
+    from crewcut.solve.profile import load_profile
+    from crewcut.solve.readers import read_network
+
+    from crewcut.plans.planfile import read_plan, write_plan
+    from crewcut.fleet.replan import change_table, rebalance_plan
+    from crewcut.plans.verify import profile_of_plan
+    from crewcut.reports.workload import workload_table
+
+    plan_path = Path(args.plan)
+    plan = read_plan(plan_path)
+    raw = plan_path.read_bytes()
+    profile = profile_of_plan(plan, load_profile(args.config) if args.config else None)
+    out_dir = out_folder(_out_dir(plan_path, args.out))
+    net_path = _network_path(plan, plan_path, args.network)
+    add = [_add_crew(text) for text in args.add_crew]
+    limits = dict(_shift_limit(text) for text in args.shift_limit)
+    close = _closures(args.close)
+    net = read_network(net_path, profile)
+    opened = None
+    if args.open:
+        opened = read_network(args.open, profile)
+    t0 = time.perf_counter()
+    with stage_progress(ui) as progress:
+        new_plan, rep = rebalance_plan(
+            plan, net, absent=args.absent, add_crews=add, close=close, opened=opened, shift_limits=limits,
+            stability=args.stability, overflow="defer" if args.defer else ("overtime" if args.overtime else None),
+            seed=args.seed, workers=args.workers, time_limit_s=args.time_limit, progress=progress, profile=profile,
+            parent={"sha256": hashlib.sha256(raw).hexdigest(), "path": str(plan_path)},
+            source=str(net_path), network_name=f"network '{net_path}'")
+    seconds = time.perf_counter() - t0
+    path = write_plan(new_plan, out_dir / "plan.json")
+    ui.out.print(change_table(rep))
+    ui.out.print(workload_table(new_plan))
+    if rep.get("over_limit") and not (args.defer or args.overtime):
+        ui.out.print("the work does not fit the shift limits: --defer lists the lowest-priority streets that can "
+                     "wait, --overtime the overtime each crew would need")
+    ui.out.print(f"plan written to {path} ({seconds:.1f} s)")
+    return 0
+
+
+def _out_dir(plan_path: Path, out: str | None) -> Path:
+    if out:
+        return Path(out)
+    base = plan_path.resolve().parent
+    i = 1
+    while (base / f"rebalanced-{i}").exists():
+        i += 1
+    return base / f"rebalanced-{i}"
+
+
+def _network_path(plan: dict, plan_path: Path, given: str | None) -> Path:
+    from crewcut.solve.errors import InputError
+
+    if given:
+        return Path(given)
+    src = str(plan.get("network", {}).get("source") or "")
+    for cand in (Path(src), plan_path.parent / src) if src else ():
+        if cand.is_file():
+            return cand
+    raise InputError(f"{plan_path}: the network file the plan records ({src or 'none'}) is not found",
+                     "give the street network with --network FILE")
+
+
+def _add_crew(text: str) -> tuple[str, float, float]:
+    from crewcut.solve.errors import InputError
+
+    from crewcut.cli.main import parse_lonlat
+
+    if "@" not in text:
+        raise InputError(f"--add-crew '{text}' is not ID@LON,LAT", "e.g. --add-crew relief@-30.5,45.2")
+    cid, where = text.rsplit("@", 1)
+    lon, lat = parse_lonlat(where, what=f"--add-crew {cid}")
+    return cid, lon, lat
+
+
+def _shift_limit(text: str) -> tuple[str, float]:
+    from crewcut.solve.errors import InputError
+
+    m = re.fullmatch(r"(.+)=([0-9.]+)", text.strip())
+    try:
+        value = float(m.group(2)) if m else None
+    except ValueError:
+        value = None
+    if not m or value is None:
+        raise InputError(f"--shift-limit '{text}' is not CREW=MINUTES", "e.g. --shift-limit north=360")
+    if not 0 < value <= 24 * 60:
+        raise InputError(f"--shift-limit '{text}': {value:g} minutes is not a shift",
+                         "give minutes above 0 and at most 1440 (a day), e.g. --shift-limit north=360")
+    return m.group(1), value
+
+
+def _closures(items: list[str]) -> list[str]:
+    """Each --close is an id, or a file of ids (one per line; blank lines and '#' comments skipped)."""
+    from crewcut.solve.errors import InputError
+
+    out: list[str] = []
+    for item in items:
+        path = Path(item)
+        if path.is_file():
+            try:
+                text = path.read_text(encoding="utf-8")
+            except (OSError, UnicodeDecodeError) as exc:
+                raise InputError(f"--close {item}: cannot read the file ({exc})") from None
+            ids = [ln.split("#", 1)[0].strip() for ln in text.splitlines()]
+            ids = [i for i in ids if i]
+            if not ids:
+                raise InputError(f"--close {item}: the file lists no segment", "one segment or feature id per line")
+            out.extend(ids)
+        else:
+            out.append(item)
+    return out

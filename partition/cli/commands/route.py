@@ -1,0 +1,120 @@
+"""``crewcut route NETWORK``: one crew serves the whole network; write the plan and print the totals."""
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+import numpy as np
+from rich.table import Table
+
+from crewcut.solve.costs import required_passes
+from crewcut.solve.errors import InputError
+from crewcut.solve.profile import load_profile
+from crewcut.solve.readers import read_network
+from crewcut.solve.route import plan_route
+
+from crewcut.plans.planfile import CrewPlan, build_plan, write_plan
+from crewcut.cli.commands.common import add_network_arguments, depot_from_args, measure_table, out_folder
+
+NAME = "route"
+HELP = "plan one crew's route over the whole network and write it as a plan file"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    add_network_arguments(parser)
+    parser.add_argument("--depot", metavar="LON,LAT",
+                        help="where the route starts and ends (default: the first crew's depot in --config); "
+                             "write --depot=-30.5,45.2 when the longitude is negative")
+    parser.add_argument("--out", metavar="DIR", default="crewcut-out",
+                        help="folder for plan.json (default: ./crewcut-out)")
+    parser.add_argument("--seed", metavar="N", type=int, default=0,
+                        help="seed for every random choice (default 0); same input and seed, same plan")
+    parser.add_argument("--plain", action="store_true",
+                        help="plain Euler circuit instead of the turn-aware one (for comparison)")
+
+
+def _depot(args, net, profile) -> tuple[int, str, str | None, float | None]:
+    """Depot node, a description, and the crew id and shift limit it came from (if any)."""
+    found = depot_from_args(args, net, profile)
+    if found is None:
+        raise InputError("no depot: the route needs a place to start and end",
+                         "give --depot LON,LAT, or a --config file with a [[crews]] entry that has a depot")
+    node, text, crew = found
+    return node, text, (crew.id if crew else None), (crew.shift_limit_min if crew else None)
+
+
+def run(args, ui) -> int:
+    if args.seed < 0:
+        raise InputError(f"--seed {args.seed} is negative", "give a whole number 0 or more")
+    profile = load_profile(args.config)
+    if args.depot:  # a malformed --depot is reported before any reading
+        from crewcut.cli.main import parse_lonlat
+        parse_lonlat(args.depot)
+    out_dir = out_folder(args.out)
+    net = read_network(args.network, profile)
+    depot, depot_text, crew_id, shift = _depot(args, net, profile)
+    with ui.progress() as bar:
+        task = bar.add_task("planning the route", total=None)
+        route = plan_route(net, profile, depot, turn_aware=not args.plain, seed=args.seed)
+        bar.update(task, completed=1, total=1)
+    territory = np.flatnonzero(required_passes(net, profile).total > 0).tolist()
+    crew = CrewPlan(id=crew_id or "crew-1", depot_node=depot,
+                    shift_limit_min=shift if shift is not None else profile.shift_limit_min,
+                    territory=territory, routes=[route])
+    st = route.stats
+    summary = {"crews": 1, "total_min": route.totals.total_min, "lower_bound_min": route.lower_bound_min,
+               "gap": route.gap, "exact": route.exact, "method": route.method,
+               "u_turns": route.totals.u_turns, "across_turns": route.totals.across_turns,
+               "plain_u_turns": st.get("plain_u_turns"), "plain_across_turns": st.get("plain_across_turns")}
+    plan = build_plan(net, profile, [crew], source=str(args.network),
+                      settings={"command": "route", "depot_node": depot, "seed": args.seed,
+                                "turn_aware": not args.plain},
+                      summary=summary)
+    path = write_plan(plan, out_dir / "plan.json")
+    _print(ui, args.network, profile.name, depot_text, route, path)
+    return 0
+
+
+def _print(ui, source, profile_name: str, depot_text: str, route, path: Path) -> None:
+    out = ui.out
+    t = route.totals
+    out.print(f"[bold]{source}[/]  profile: {profile_name}  depot: {depot_text}")
+    n_service = sum(1 for x in route.traversals if x.service)
+    n_dead = len(route.traversals) - n_service
+    n_turns = sum(1 for x in route.traversals if x.turn != "start")
+    tab = Table(title="Route totals", title_justify="left")
+    for col in ("part", "traversals", "distance (km)", "time (min)"):
+        tab.add_column(col, justify="left" if col == "part" else "right")
+    tab.add_row("service", f"{n_service:,}", f"{t.service_km:,.2f}", f"{t.service_min:,.1f}")
+    tab.add_row("deadhead", f"{n_dead:,}", f"{t.deadhead_km:,.2f}", f"{t.deadhead_min:,.1f}")
+    tab.add_row("turns", f"{n_turns:,}", "", f"{t.turn_min:,.1f}")
+    tab.add_section()
+    tab.add_row("[bold]total[/]", f"{len(route.traversals):,}", f"{t.service_km + t.deadhead_km:,.2f}",
+                f"{t.total_min:,.1f}")
+    out.print(tab)
+
+    q = measure_table("Quality")
+    q.add_row("method", route.method, "")
+    q.add_row("deadhead proven least", "yes" if route.exact else "no (heuristic)", "")
+    q.add_row("lower bound (service, deadhead, forced turns)", f"{route.lower_bound_min:,.1f}", "min")
+    q.add_row("gap (total with turns over the bound)", f"{100 * route.gap:,.2f}", "%")
+    out.print(q)
+
+    st = route.stats
+    turns = Table(title="Turns", title_justify="left")
+    turns.add_column("turn")
+    aware = str(st.get("circuit", "")).startswith("turn-aware")
+    if aware:
+        turns.add_column("turn-aware (count)", justify="right")
+    turns.add_column("plain circuit (count)", justify="right")
+    rows = [("U-turns", t.u_turns, st.get("plain_u_turns", 0)),
+            ("across traffic", t.across_turns, st.get("plain_across_turns", 0))]
+    for label, mine, plain in rows:
+        turns.add_row(label, *([f"{mine:,}"] if aware else []), f"{plain:,}")
+    turns.add_section()
+    turns.add_row("[bold]turn time (min)[/]", *([f"{t.turn_min:,.1f}"] if aware else []),
+                  f"{st.get('plain_turn_s', 0.0) / 60:,.1f}")
+    out.print(turns)
+    if aware and st.get("kept") == "plain":
+        out.print("the turn-aware circuit cost more turn time than the plain one here; the plain one was kept")
+    out.print(f"plan written to {path}")

@@ -1,0 +1,98 @@
+"""Crews for a plan: from the config's ``[[crews]]`` tables or the ``--crews K --depot LON,LAT`` shortcut.
+
+Every crew ends up with a depot *node* (a lon/lat depot is snapped to the nearest
+usable node with :func:`crewcut.solve.network.depot.snap_depot`) and a shift limit in minutes.
+Crews may have different shift limits and different depots. Everything is checked
+up front, before any planning starts, with messages that name the crew or setting.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from crewcut.solve.costs import required_passes
+from crewcut.solve.network.depot import check_depot_node, snap_depot
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import Network
+from crewcut.solve.profile import Profile
+
+
+@dataclass(frozen=True)
+class FleetCrew:
+    """A crew ready for planning: its id, its depot node and its shift limit (minutes)."""
+
+    id: str
+    depot: int
+    shift_limit_min: float
+
+
+def resolve_crews(net: Network, profile: Profile, *, k: int | None = None,
+                  depot_lonlat: tuple[float, float] | None = None,
+                  only: list[str] | None = None) -> list[FleetCrew]:
+    """The crews to plan for.
+
+    Parameters
+    ----------
+    net, profile:
+        The street network and the work profile (its ``crews`` are the config's crews).
+    k, depot_lonlat:
+        The shortcut: ``k`` crews sharing one depot at ``depot_lonlat``, each with the
+        profile's shift limit. When ``k`` is given without a depot, the k crews share
+        the depot of the config's first crew.
+    only:
+        Crew ids from the config to keep (for a day when only some crews work);
+        an id the config does not define is an error.
+    """
+    if k is not None:
+        if isinstance(k, bool) or not isinstance(k, (int, np.integer)) or k < 1:
+            raise InputError(f"--crews is {k!r}; a plan needs at least one crew",
+                             "give a whole number of crews of 1 or more, e.g. --crews 4")
+        if only:
+            raise InputError("--crews K and --crew ID cannot be combined",
+                             "use --crews K for k identical crews, or pick config crews with --crew")
+        if depot_lonlat is not None:
+            node = snap_depot(net, depot_lonlat[0], depot_lonlat[1], profile.depot_snap_max_m, who="--depot")
+        elif profile.crews:
+            node = _crew_depot(net, profile, profile.crews[0])
+        else:
+            raise InputError("--crews was given without a depot and the config defines no crews",
+                             "add --depot LON,LAT (the yard's position), or [[crews]] tables to the config")
+        width = len(str(int(k)))
+        crews = [FleetCrew(f"crew-{i + 1:0{width}d}", node, float(profile.shift_limit_min)) for i in range(int(k))]
+    else:
+        if depot_lonlat is not None:
+            raise InputError("--depot was given without --crews",
+                             "give --crews K too, or define the crews and their depots in the config")
+        if not profile.crews:
+            raise InputError(f"{profile.source}: no crews to plan for",
+                             "add [[crews]] tables (id, depot, shift_limit_min) to the config, "
+                             "or give --crews K --depot LON,LAT")
+        chosen = list(profile.crews)
+        if only:
+            known = {c.id: c for c in profile.crews}
+            for cid in only:
+                if cid not in known:
+                    raise InputError(f"unknown crew id '{cid}'",
+                                     f"crews defined in {profile.source}: {', '.join(sorted(known))}")
+            if len(set(only)) != len(only):
+                raise InputError("a crew id is given twice with --crew", "name each crew once")
+            keep = set(only)
+            chosen = [c for c in profile.crews if c.id in keep]
+        crews = [FleetCrew(c.id, _crew_depot(net, profile, c), float(c.shift_limit_min)) for c in chosen]
+    n_required = int(np.count_nonzero(required_passes(net, profile).total))
+    if n_required == 0:
+        raise InputError("the network has no segment that needs service under this profile",
+                         "check the profile's default_service per road class and the data's service tags")
+    if len(crews) > n_required:
+        raise InputError(f"{len(crews)} crews but only {n_required} segments need service",
+                         f"plan for at most {n_required} crews")
+    return crews
+
+
+def _crew_depot(net: Network, profile: Profile, crew) -> int:
+    who = f"depot of crew '{crew.id}'"
+    if crew.depot_node is not None:
+        return check_depot_node(net, crew.depot_node, who=who, usable=True)
+    lon, lat = crew.depot_lonlat
+    return snap_depot(net, lon, lat, profile.depot_snap_max_m, who=who)

@@ -1,0 +1,222 @@
+"""Planning a fleet: territories, routes, balance, lower bound, the plan document.
+
+Problem
+-------
+Serve every required pass of a street network with k crews, each on one closed
+route from its own depot, every segment served by exactly one crew, territories
+connected; minimise the longest shift (as a share of each crew's shift limit),
+then the spread. This is the min-max k-postman problem with depots, NP-hard
+(Frederickson, Hecht and Kim 1978); the result is a heuristic plan with a proven
+lower bound on the longest shift and the gap to it, never a claim of optimality.
+
+Method (cluster first, route second, then local search)
+------
+1. :mod:`crewcut.fleet.seeding`: weighted k-means seeds, anchored at the depots;
+2. :mod:`crewcut.fleet.territories`: connected territories grown by estimated work,
+   then border runs moved where that cuts the turns a border forces;
+3. :mod:`crewcut.fleet.executor`: one rural postman route per territory
+   (:func:`crewcut.solve.route.plan_route`), in parallel;
+4. :mod:`crewcut.fleet.balancer`: boundary moves and swaps re-routed exactly;
+5. :func:`crewcut.solve.postman.bounds.fleet_lower_bound`: max(a bound on all crews' minutes
+   together / k, the longest depot -> pass -> depot round trip), after Ahr and
+   Reinelt (2006).
+"""
+from __future__ import annotations
+
+import math
+from typing import Callable
+
+import numpy as np
+
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import Network
+from crewcut.solve.profile import Profile
+from crewcut.solve.circuits.turns import TurnModel
+
+from crewcut.fleet.balancer import BalanceReport, FleetState, balance
+from crewcut.fleet.crews import FleetCrew
+from crewcut.plans.planfile import CrewPlan, build_plan
+from crewcut.fleet.executor import LocalRouter, RouteJob, Router, check_workers
+from crewcut.fleet.seeding import seed_territories
+from crewcut.fleet.streets import build_street_graph, depot_travel, round_trips
+from crewcut.fleet.territories import BorderTurns, _describe, grow_territories, polish_borders, smooth_boundaries, territories_of
+
+ProgressFn = Callable[[str, float, float], None]
+
+
+def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: int = 0,
+               workers: int | None = None, time_limit_s: float | None = None, tolerance: float = 0.003,
+               max_iterations: int = 500, route_time_limit_s: float = 10.0,
+               progress: ProgressFn | None = None, router: Router | None = None,
+               source: str = "") -> dict:
+    """Plan territories and routes for ``crews``; returns the plan document.
+
+    Parameters
+    ----------
+    net, profile: the street network and the work profile.
+    crews: from :func:`crewcut.fleet.crews.resolve_crews`.
+    seed: seeds k-means and every route; same input and seed give the same plan
+        (unless the balancer stops on ``time_limit_s``, which the summary says).
+    workers: processes for routing (default: all cores); does not change the plan.
+    time_limit_s: wall-clock limit of the balancer (None: none; the iteration limit is the deterministic stop).
+    tolerance: the balancer stops when longest / mean share of shift limit <= 1 + tolerance.
+    max_iterations: the balancer's iteration limit.
+    router: a :class:`crewcut.fleet.executor.Router` to use instead of a local pool.
+    progress: ``progress(description, done, total)`` callback; the library prints nothing.
+    """
+    _check(crews, seed, time_limit_s, tolerance, max_iterations)
+    check_workers(workers)
+    report = _progress(progress)
+    k = len(crews)
+    sg = build_street_graph(net, profile)
+    if not sg.required.any():
+        raise InputError("the network has no segment that needs service under this profile",
+                         "check the profile's default_service per road class and the data's service tags")
+    depots = [c.depot for c in crews]
+    uniq = sorted(set(depots))
+    out, back = depot_travel(net, profile, uniq)
+    rt_depot = round_trips(net, sg, out, back)
+    row = np.array([uniq.index(d) for d in depots])
+    rt = rt_depot[row]  # (k, m)
+    eligible = np.isfinite(rt)
+    _check_reach(net, sg, crews, eligible, rt)
+    report("territories", 0, 1)
+    depot_xy = np.stack([net.node_x[depots], net.node_y[depots]], axis=1)
+    centres, seeds = seed_territories(sg, depot_xy, eligible, seed=seed)
+    approach = np.array([rt[c, s] - sg.service_min[s] if s >= 0 else 0.0 for c, s in enumerate(seeds)])
+    owner = grow_territories(net, sg, centres, seeds, eligible, approach)
+    smooth_boundaries(net, sg, owner, eligible)
+    border = BorderTurns(net, sg, TurnModel.from_network(net, profile))
+    polish_borders(net, sg, owner, eligible, border)
+    report("territories", 1, 1)
+    own_router = router is None
+    if own_router:
+        router = LocalRouter(net, profile, workers=workers, time_limit_s=route_time_limit_s)
+    limits = np.array([c.shift_limit_min for c in crews], float)
+    try:
+        state, bal = _route_and_balance(owner, router, sg, eligible, depots, limits, seed, tolerance,
+                                        max_iterations, time_limit_s, progress, report, border)
+    finally:
+        if own_router:
+            router.close()
+    report("lower bound", 0, 1)
+    from crewcut.solve.postman.bounds import fleet_lower_bound
+
+    lb = float(fleet_lower_bound(net, profile, depots, k))
+    report("lower bound", 1, 1)
+    terr = territories_of(state.owner, k)
+    plans = [CrewPlan(id=c.id, depot_node=c.depot, shift_limit_min=c.shift_limit_min,
+                      territory=terr[i].tolist(), routes=[state.routes[i]]) for i, c in enumerate(crews)]
+    summary = fleet_summary(plans, lb, bal)
+    settings = {"seed": int(seed), "crews": [{"id": c.id, "depot_node": int(c.depot),
+                                              "shift_limit_min": float(c.shift_limit_min)} for c in crews],
+                "balance": {"tolerance": float(tolerance), "max_iterations": int(max_iterations),
+                            "time_limit_s": None if time_limit_s is None else float(time_limit_s)},
+                "route_time_limit_s": float(route_time_limit_s)}
+    return build_plan(net, profile, plans, source=source, settings=settings, summary=summary)
+
+
+def _route_and_balance(owner, router, sg, eligible, depots, limits, seed, tolerance, max_iterations,
+                       time_limit_s, progress, report, border=None):
+    k = len(depots)
+    terr = territories_of(owner, k)
+    report("routing territories", 0, k)
+    routes = router.route_many([RouteJob.of(depots[c], terr[c], seed) for c in range(k)])
+    report("routing territories", k, k)
+    state = FleetState(owner=owner, routes=list(routes), depots=list(depots), limits=limits)
+    bal = balance(state, sg, router, eligible, seed=seed, tolerance=tolerance,
+                  max_iterations=max_iterations, time_limit_s=time_limit_s, progress=progress, border=border)
+    return state, bal
+
+
+def fleet_summary(plans: list[CrewPlan], lower_bound_min: float, bal: BalanceReport | None = None) -> dict:
+    """Longest, mean, lower bound and gap, crews over their limit, and an estimate of the crews needed."""
+    shifts = np.array([p.shift_min for p in plans])
+    limits = np.array([p.shift_limit_min for p in plans])
+    longest, mean = float(shifts.max()), float(shifts.mean())
+    over = [{"crew": p.id, "shift_min": p.shift_min, "limit_min": p.shift_limit_min,
+             "over_min": p.shift_min - p.shift_limit_min} for p in plans if p.shift_min > p.shift_limit_min + 1e-9]
+    service = sum(r.totals.service_min for p in plans for r in p.routes)
+    dead = sum(r.totals.deadhead_min for p in plans for r in p.routes)
+    dead_km = sum(r.totals.deadhead_km for p in plans for r in p.routes)
+    serv_km = sum(r.totals.service_km for p in plans for r in p.routes)
+    out = {
+        "crews": len(plans),
+        "longest_min": longest,
+        "mean_min": mean,
+        "shortest_min": float(shifts.min()),
+        "longest_over_mean": longest / mean if mean > 0 else 1.0,
+        "lower_bound_min": lower_bound_min,
+        "gap": longest / lower_bound_min - 1.0 if lower_bound_min > 0 else 0.0,
+        "total_shift_min": float(shifts.sum()),
+        "service_min": service,
+        "deadhead_min": dead,
+        "deadhead_pct": 100.0 * dead_km / (dead_km + serv_km) if dead_km + serv_km > 0 else 0.0,
+        "over_limit": over,
+        "crews_needed_estimate": crews_needed(float(shifts.sum()), lower_bound_min, limits),
+        "method": "cluster first (k-means seeds, connected growth), route second, boundary balancing; heuristic",
+    }
+    if bal is not None:
+        b = bal.to_dict()
+        b.pop("seconds", None)  # wall time is not part of the plan: same input, same bytes
+        out["balance"] = b
+    return out
+
+
+def crews_needed(total_min: float, lower_bound_min: float, limits: np.ndarray) -> int:
+    """Smallest crew count whose limits could hold the work (an estimate, not a plan).
+
+    Adds crews in decreasing order of shift limit (more crews than planned take the
+    smallest limit) until their limits add up to the plan's total shift minutes.
+    """
+    lim = np.sort(np.asarray(limits, float))[::-1]
+    acc, j = 0.0, 0
+    while acc + 1e-9 < total_min:
+        acc += lim[j] if j < lim.size else lim[-1]
+        j += 1
+        if j > 100000:
+            break
+    return max(1, j)
+
+
+def _check(crews, seed, time_limit_s, tolerance, max_iterations) -> None:
+    if not crews:
+        raise InputError("no crews to plan for", "give --crews K --depot LON,LAT or [[crews]] in the config")
+    if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
+        raise InputError(f"--seed is {seed!r}", "give a whole number of 0 or more")
+    if time_limit_s is not None and not (isinstance(time_limit_s, (int, float)) and math.isfinite(time_limit_s)
+                                         and time_limit_s >= 0):
+        raise InputError(f"--time-limit is {time_limit_s!r}", "give the seconds the balancer may use, 0 or more")
+    if not (0 <= tolerance < 1):
+        raise InputError(f"balance tolerance {tolerance!r} is outside [0, 1)", "e.g. 0.01 for 1 %")
+    if max_iterations < 0:
+        raise InputError(f"balance iteration limit {max_iterations!r} is negative", "give 0 or more")
+
+
+def _check_reach(net: Network, sg, crews: list[FleetCrew], eligible: np.ndarray, rt: np.ndarray) -> None:
+    req = sg.required
+    cut = np.flatnonzero(req & ~eligible.any(axis=0))
+    if cut.size:
+        where = sorted({c.depot for c in crews})
+        raise InputError(
+            f"{cut.size} segment(s) that need service cannot be reached from any depot and back "
+            f"(depot node(s) {', '.join(map(str, where))}): {_describe(net, cut)}",
+            "closed or one-way streets cut them off; open a street that joins them, set their service "
+            "to none, or place a depot where it can reach them")
+    limits = np.array([c.shift_limit_min for c in crews], float)
+    fits = (rt <= limits[:, None]) & eligible
+    bad = np.flatnonzero(req & ~fits.any(axis=0))
+    if bad.size:
+        s = int(bad[0])
+        best = float(rt[:, s].min())
+        raise InputError(
+            f"no route can meet the shift limit: serving segment {s} ('{net.seg_source[s]}') from the nearest "
+            f"depot and driving back takes {best:,.1f} min, more than the crews' limit of "
+            f"{limits.max():,.0f} min ({bad.size} segment(s) affected: {_describe(net, bad)})",
+            "raise shift_limit_min, or add a crew with a depot nearer to these streets")
+
+
+def _progress(progress: ProgressFn | None) -> ProgressFn:
+    if progress is None:
+        return lambda *a: None
+    return progress

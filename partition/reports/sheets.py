@@ -1,0 +1,240 @@
+"""Route sheets: the ordered list of streets a crew drives, with turns, headings, distances and times.
+
+A sheet is made for each route of a crew from the plan's traversals. Consecutive
+traversals on the same named street in the same mode (serve or drive) become one
+line, so that a driver reads "serve Mere Street east, 450 m" once, not once per
+block. A U-turn always starts a new line (the driver must see it), and streets
+without a name are never merged (two unnamed pieces need not be one street).
+
+Turns come from the plan (the route engine's ``turn`` kinds) and are told as a
+driver hears them: with / across traffic become right / left according to the
+plan's traffic side. The heading is the 8-point compass direction from the
+line's first point to its last (of its first traversal when the line closes on
+itself), computed with the spherical initial-bearing formula.
+"""
+from __future__ import annotations
+
+import html
+import math
+import re
+from dataclasses import dataclass, field
+
+from crewcut.plans.view import PlanView
+
+UNNAMED = "unnamed street"
+COMPASS = ("N", "NE", "E", "SE", "S", "SW", "W", "NW")
+
+
+@dataclass
+class SheetLine:
+    """One line of a route sheet: several traversals merged, or the depot start / end."""
+
+    kind: str  # "start" | "step" | "end"
+    street: str = ""  # display name ("unnamed street" when the data has none)
+    mode: str = ""  # "serve" | "drive"
+    heading: str = ""  # N, NE, ... or "" without coordinates
+    turn: str = ""  # "leave depot", "left", "right", "straight on", "U-turn", "turn" (unknown)
+    metres: float = 0.0
+    minutes: float = 0.0  # driving/service minutes plus turn delays of the merged traversals
+    elapsed_min: float = 0.0  # cumulative, at the end of this line
+    traversals: list[int] = field(default_factory=list)  # indices into the route's traversals
+
+
+@dataclass
+class Sheet:
+    crew: str
+    route: str
+    depot: str
+    depot_lonlat: tuple[float, float] | None
+    lines: list[SheetLine]
+    total_min: float  # the route's recorded total
+    service_km: float
+    deadhead_km: float
+
+
+def initial_bearing(p: list[float], q: list[float]) -> float:
+    """Initial compass bearing p -> q in degrees [0, 360) on a sphere (the standard great-circle formula)."""
+    lon1, lat1, lon2, lat2 = map(math.radians, (p[0], p[1], q[0], q[1]))
+    dlon = lon2 - lon1
+    x = math.sin(dlon) * math.cos(lat2)
+    y = math.cos(lat1) * math.sin(lat2) - math.sin(lat1) * math.cos(lat2) * math.cos(dlon)
+    return math.degrees(math.atan2(x, y)) % 360.0
+
+
+def compass(bearing: float) -> str:
+    """8-point compass name of a bearing in degrees (sectors of 45 degrees centred on N, NE, ...)."""
+    return COMPASS[int(((bearing % 360.0) + 22.5) // 45.0) % 8]
+
+
+def turn_words(kind: str, traffic: str) -> str:
+    """A turn kind of the plan as a driver hears it."""
+    if kind == "with_traffic":
+        return "right" if traffic == "right" else "left"
+    if kind == "across_traffic":
+        return "left" if traffic == "right" else "right"
+    return {"start": "leave depot", "straight": "straight on", "u_turn": "U-turn"}.get(kind, "turn")
+
+
+def _heading(pv: PlanView, route: dict, idx: list[int]) -> str:
+    if not pv.has_geometry:
+        return ""
+    steps = route["traversals"]
+    first = pv.seg_coords(steps[idx[0]]["segment"], steps[idx[0]]["from"])
+    last = pv.seg_coords(steps[idx[-1]]["segment"], steps[idx[-1]]["from"])
+    a, b = first[0], last[-1]
+    if a == b:
+        b = first[-1]
+    return compass(initial_bearing(a, b))
+
+
+def route_sheet(pv: PlanView, crew: dict, route: dict) -> Sheet:
+    """The sheet of one route of one crew (see the module notes for the merging rule)."""
+    steps = pv.steps(route)
+    lines: list[SheetLine] = []
+    depot = crew["depot_node"]
+    depot_name = pv.node_name(depot)
+    lines.append(SheetLine("start", street=f"start at the depot, {depot_name}"))
+    elapsed = 0.0
+    cur: SheetLine | None = None
+    for i, st in enumerate(steps):
+        name = pv.segments[st.segment].get("name") or ""
+        mode = "serve" if st.service else "drive"
+        if cur is not None and name and cur.street == name and cur.mode == mode and st.turn != "u_turn":
+            cur.traversals.append(i)
+        else:
+            cur = SheetLine("step", street=name or UNNAMED, mode=mode, turn=turn_words(st.turn, pv.traffic),
+                            traversals=[i])
+            lines.append(cur)
+        cur.metres += st.metres
+        cur.minutes += st.minutes + st.turn_minutes
+        elapsed += st.minutes + st.turn_minutes
+        cur.elapsed_min = elapsed
+    for ln in lines[1:]:
+        ln.heading = _heading(pv, route, ln.traversals)
+    end_ok = not steps or steps[-1].to_node == depot
+    lines.append(SheetLine("end", street=("back at the depot, " if end_ok else "route ends away from the depot, ")
+                           + (depot_name if end_ok else pv.node_name(steps[-1].to_node)), elapsed_min=elapsed))
+    totals = route.get("totals") or {}
+    return Sheet(crew=crew["id"], route=str(route.get("id", "route")), depot=depot_name,
+                 depot_lonlat=pv.node_lonlat(depot), lines=lines,
+                 total_min=float(totals.get("total_min", elapsed)),
+                 service_km=sum(s.metres for s in steps if s.service) / 1000.0,
+                 deadhead_km=sum(s.metres for s in steps if not s.service) / 1000.0)
+
+
+def crew_sheets(pv: PlanView, crews: list[dict]) -> list[Sheet]:
+    return [route_sheet(pv, c, r) for c in crews for r in c["routes"]]
+
+
+# ------------------------------------------------------------------ rendering
+def hmm(minutes: float) -> str:
+    """Minutes as h:mm (rounded to the minute)."""
+    m = int(round(minutes))
+    return f"{m // 60}:{m % 60:02d}"
+
+
+def distance(metres: float) -> str:
+    return f"{metres:.0f}"
+
+
+HEAD = ("#", "turn", "street", "work", "heading", "distance (m)", "elapsed (h:mm)")
+
+
+def _cells(sheet: Sheet) -> list[list[str]]:
+    out = []
+    n = 0
+    for ln in sheet.lines:
+        if ln.kind == "step":
+            n += 1
+            out.append([str(n), ln.turn, ln.street, ln.mode, ln.heading or "-", distance(ln.metres),
+                        hmm(ln.elapsed_min)])
+        else:
+            out.append(["", "", ln.street, "", "", "", hmm(ln.elapsed_min)])
+    return out
+
+
+def _intro(sheet: Sheet) -> list[str]:
+    where = "" if sheet.depot_lonlat is None else f" at lon {sheet.depot_lonlat[0]:.6f}, lat {sheet.depot_lonlat[1]:.6f}"
+    n = sum(ln.kind == "step" for ln in sheet.lines)
+    return [f"Depot: {sheet.depot}{where}",
+            f"Shift: {hmm(sheet.total_min)} h:mm ({sheet.total_min:.1f} min); serve {sheet.service_km:.2f} km, "
+            f"drive without serving {sheet.deadhead_km:.2f} km; {n} lines"]
+
+
+def to_text(sheet: Sheet) -> str:
+    cells = [list(HEAD)] + _cells(sheet)
+    widths = [max(len(r[i]) for r in cells) for i in range(len(HEAD))]
+    right = {0, 5, 6}
+    title = f"Route sheet - {sheet.crew}, {sheet.route}"
+    out = [title, "=" * len(title)] + _intro(sheet) + [""]
+    for k, r in enumerate(cells):
+        out.append("  ".join(c.rjust(widths[i]) if i in right else c.ljust(widths[i]) for i, c in enumerate(r)).rstrip())
+        if k == 0:
+            out.append("  ".join("-" * w for w in widths))
+    return "\n".join(out) + "\n"
+
+
+def to_markdown(sheet: Sheet) -> str:
+    def esc(t: str) -> str:
+        return t.replace("|", "\\|")
+    out = [f"## Route sheet - {esc(sheet.crew)}, {esc(sheet.route)}", ""] + [f"- {esc(x)}" for x in _intro(sheet)] + [""]
+    out.append("| " + " | ".join(HEAD) + " |")
+    out.append("|" + "|".join("---:" if i in (0, 5, 6) else ":---" for i in range(len(HEAD))) + "|")
+    out += ["| " + " | ".join(esc(c) for c in r) + " |" for r in _cells(sheet)]
+    return "\n".join(out) + "\n"
+
+
+SHEET_CSS = """
+.sheet { margin: 0 0 2.5em 0; }
+.sheet + .sheet, .crewpage + .crewpage { break-before: page; page-break-before: always; }
+.sheet h2 { font-size: 1.25em; margin: 0.2em 0; border-bottom: 3px solid var(--crew, #444); }
+.sheet .intro { margin: 0.3em 0 0.6em 0; color: #333; }
+table.steps { border-collapse: collapse; width: 100%; font-size: 0.92em; }
+table.steps th, table.steps td { padding: 2px 6px; border-bottom: 1px solid #d6d6d6; text-align: left; }
+table.steps td.n, table.steps th.n { text-align: right; font-variant-numeric: tabular-nums; }
+table.steps tr.drive td { color: #5d5d5d; font-style: italic; }
+table.steps tr.depot td { font-weight: bold; background: #f1f1ec; }
+table.steps tr.uturn td.turn { font-weight: bold; }
+table.steps thead { display: table-header-group; }
+table.steps tr { break-inside: avoid; page-break-inside: avoid; }
+"""
+
+
+def to_html_section(sheet: Sheet, colour: str | None = None, extra: str = "") -> str:
+    """One sheet as an HTML <section> (no document around it)."""
+    e = html.escape
+    style = f' style="--crew: {colour}"' if colour else ""
+    out = [f'<section class="sheet"{style} id="sheet-{e(slug(sheet.crew))}-{e(slug(sheet.route))}">',
+           f"<h2>Route sheet &ndash; {e(sheet.crew)}, {e(sheet.route)}</h2>",
+           '<p class="intro">' + "<br>".join(e(x) for x in _intro(sheet)) + "</p>", extra,
+           '<table class="steps"><thead><tr>'
+           + "".join(f'<th class="n">{e(h)}</th>' if i in (0, 5, 6) else f"<th>{e(h)}</th>" for i, h in enumerate(HEAD))
+           + "</tr></thead><tbody>"]
+    for ln, r in zip(sheet.lines, _cells(sheet)):
+        cls = "depot" if ln.kind != "step" else ln.mode + (" uturn" if ln.turn == "U-turn" else "")
+        tds = "".join(f'<td class="n">{e(c)}</td>' if i in (0, 5, 6) else
+                      (f'<td class="turn">{e(c)}</td>' if i == 1 else f"<td>{e(c)}</td>") for i, c in enumerate(r))
+        out.append(f'<tr class="{cls}">{tds}</tr>')
+    out.append("</tbody></table></section>")
+    return "\n".join(x for x in out if x)
+
+
+def html_document(title: str, body: str, css: str = "") -> str:
+    """A self-contained HTML document (inline CSS, nothing fetched)."""
+    return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+            f"<title>{html.escape(title)}</title>\n<style>\n{BASE_CSS}{SHEET_CSS}{css}</style>\n</head>\n"
+            f"<body>\n{body}\n</body>\n</html>\n")
+
+
+BASE_CSS = """
+@page { size: A4; margin: 14mm; }
+body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; color: #1d1d1d; margin: 1.5em;
+       -webkit-print-color-adjust: exact; print-color-adjust: exact; }
+@media print { body { margin: 0; } }
+"""
+
+
+def slug(text: str) -> str:
+    """A file-name-safe form of a crew or route id."""
+    s = re.sub(r"[^A-Za-z0-9_.-]+", "_", text).strip("._")
+    return s or "crew"

@@ -1,0 +1,158 @@
+"""The per-crew workload table: what each crew drives, serves and how long its shift is.
+
+One row per crew plus a totals row, computed from the plan file alone (route
+traversals and crew shift limits). ``workload_rows`` gives plain data (used by
+the csv/md/json forms of ``crewcut table``); ``workload_table`` a rich table
+for the terminal (used by ``crewcut table`` and after ``crewcut plan``).
+
+Definitions (minutes and metres from the traversals, summed over a crew's routes):
+service km / h: traversals in ``service`` mode; driving h: deadhead minutes plus
+turn delays, so that service h + driving h = shift h; deadhead %: deadhead
+distance over all distance driven; % of limit: shift over the crew's shift limit.
+The lower bound and gap come from the plan's ``summary`` (keys
+``lower_bound_min`` and ``gap``) when the planner recorded them.
+"""
+from __future__ import annotations
+
+from rich.table import Table
+from rich.text import Text
+
+from crewcut.plans.view import PlanView, view
+
+# (key, header with unit, justify) in display order.
+COLUMNS: tuple[tuple[str, str, str], ...] = (
+    ("crew", "crew", "left"),
+    ("depot", "depot", "left"),
+    ("segments", "segments (count)", "right"),
+    ("service_km", "service (km)", "right"),
+    ("deadhead_km", "deadhead (km)", "right"),
+    ("deadhead_pct", "deadhead (% of km)", "right"),
+    ("service_h", "service (h)", "right"),
+    ("driving_h", "driving (h)", "right"),
+    ("u_turns", "U-turns (count)", "right"),
+    ("across_turns", "across-traffic turns (count)", "right"),
+    ("shift_h", "shift (h)", "right"),
+    ("limit_pct", "shift limit used (%)", "right"),
+)
+DECIMALS = {"service_km": 2, "deadhead_km": 2, "deadhead_pct": 1, "service_h": 2, "driving_h": 2,
+            "shift_h": 2, "limit_pct": 1}
+
+
+def _pct(a: float, b: float) -> float:
+    return 0.0 if b <= 0 else 100.0 * a / b
+
+
+def _crew_row(pv: PlanView, crew: dict) -> dict:
+    s_m = d_m = s_min = d_min = turn_min = 0.0
+    u = across = 0
+    for route in crew["routes"]:
+        for st in pv.steps(route):
+            if st.service:
+                s_m += st.metres
+                s_min += st.minutes
+            else:
+                d_m += st.metres
+                d_min += st.minutes
+            turn_min += st.turn_minutes
+            u += st.turn == "u_turn"
+            across += st.turn == "across_traffic"
+    shift = s_min + d_min + turn_min
+    limit = float(crew.get("shift_limit_min") or 0.0)
+    return {
+        "row": "crew",
+        "crew": crew["id"],
+        "depot": pv.node_name(crew["depot_node"]),
+        "segments": len(crew["territory"]),
+        "service_km": s_m / 1000.0,
+        "deadhead_km": d_m / 1000.0,
+        "deadhead_pct": _pct(d_m, s_m + d_m),
+        "service_h": s_min / 60.0,
+        "driving_h": (d_min + turn_min) / 60.0,
+        "u_turns": u,
+        "across_turns": across,
+        "shift_h": shift / 60.0,
+        "shift_limit_h": limit / 60.0,
+        "limit_pct": _pct(shift, limit),
+        "over_limit_min": max(0.0, shift - limit) if limit > 0 else 0.0,
+    }
+
+
+def workload_rows(plan: dict) -> list[dict]:
+    """One dict per crew (plan order) and a last row with ``"row": "total"``.
+
+    Keys carry their unit (``_km``, ``_h``, ``_pct``, ``_min``); counts are ints.
+    """
+    pv = plan if isinstance(plan, PlanView) else view(plan)
+    rows = [_crew_row(pv, c) for c in pv.crews]
+    tot = {"row": "total", "crew": "all crews", "depot": ""}
+    for key in ("segments", "service_km", "deadhead_km", "service_h", "driving_h", "u_turns", "across_turns",
+                "shift_h", "shift_limit_h", "over_limit_min"):
+        tot[key] = sum(r[key] for r in rows)
+    tot["deadhead_pct"] = _pct(tot["deadhead_km"], tot["service_km"] + tot["deadhead_km"])
+    tot["limit_pct"] = _pct(tot["shift_h"], tot["shift_limit_h"])
+    return rows + [{k: tot[k] for k in rows[0]} if rows else tot]
+
+
+def workload_summary(plan: dict) -> dict:
+    """Longest and mean shift, longest / mean, the recorded lower bound and gap, crews over their limit."""
+    pv = plan if isinstance(plan, PlanView) else view(plan)
+    rows = workload_rows(pv)[:-1]
+    shifts = [r["shift_h"] * 60.0 for r in rows]
+    longest = max(shifts, default=0.0)
+    mean = sum(shifts) / len(shifts) if shifts else 0.0
+    lb = pv.summary.get("lower_bound_min")
+    lb = float(lb) if isinstance(lb, (int, float)) and lb > 0 else None
+    gap = pv.summary.get("gap")
+    if not isinstance(gap, (int, float)):
+        gap = None if lb is None else longest / lb - 1.0
+    return {
+        "crews": len(rows),
+        "longest_shift_min": longest,
+        "mean_shift_min": mean,
+        "longest_over_mean": longest / mean if mean > 0 else 0.0,
+        "lower_bound_min": lb,
+        "gap": None if gap is None else float(gap),
+        "over_limit": [{"crew": r["crew"], "over_min": r["over_limit_min"]} for r in rows if r["over_limit_min"] > 0],
+    }
+
+
+def fmt(key: str, value) -> str:
+    """A cell as text, fixed decimals per column."""
+    if isinstance(value, float):
+        return f"{value:.{DECIMALS.get(key, 2)}f}"
+    return str(value)
+
+
+def summary_lines(plan: dict) -> list[str]:
+    """The lines printed under the table (plain text, no markup)."""
+    s = workload_summary(plan)
+    if not s["crews"]:
+        return ["no crews in this plan"]
+    lines = [f"longest shift {s['longest_shift_min'] / 60:.2f} h, mean {s['mean_shift_min'] / 60:.2f} h, "
+             f"longest / mean {s['longest_over_mean']:.3f}"]
+    if s["lower_bound_min"] is None:
+        lines.append("lower bound on the longest shift: not recorded in this plan")
+    else:
+        lines.append(f"lower bound on the longest shift {s['lower_bound_min'] / 60:.2f} h, "
+                     f"gap {100 * s['gap']:.1f} %")
+    for o in s["over_limit"]:
+        lines.append(f"over the shift limit: {o['crew']} by {o['over_min']:.0f} min")
+    return lines
+
+
+def workload_table(plan: dict) -> Table:
+    """The workload table as a rich Table (crews over their shift limit in bold red, marked '!')."""
+    pv = plan if isinstance(plan, PlanView) else view(plan)
+    rows = workload_rows(pv)
+    table = Table(title="Workload per crew", caption="\n".join(summary_lines(pv)), caption_justify="left",
+                  show_footer=False, header_style="bold")
+    for _key, header, justify in COLUMNS:
+        table.add_column(header, justify=justify)
+    for r in rows:
+        over = r["row"] == "crew" and r["over_limit_min"] > 0
+        cells = [fmt(k, r[k]) for k, _h, _j in COLUMNS]
+        if over:
+            cells[-1] += " !"
+        style = "bold red" if over else ("bold" if r["row"] == "total" else None)
+        table.add_row(*[Text(c) for c in cells], style=style, end_section=len(rows) > 1 and r is rows[-2])
+    return table

@@ -1,0 +1,1 @@
+"""The street network: the array model, geodesy, plane layout, depots, topology repair and diagnosis."""

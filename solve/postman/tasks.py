@@ -1,0 +1,105 @@
+"""Tasks (required passes) and deadhead arcs of a street network under a profile.
+
+A *task* is one required pass of one segment: directed (it must be driven from
+``tail`` to ``head``) or undirected (either way; ``tail``/``head`` are then the
+segment's ``u``/``v``). A *deadhead arc* is one legal driving direction of a
+usable segment, driven without service. The Eulerization works on these two
+tables only (see :mod:`crewcut.solve.postman.eulerize`).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from crewcut.solve.costs import deadhead_minutes, required_passes, service_minutes
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import Network
+from crewcut.solve.profile import Profile
+
+
+@dataclass(frozen=True)
+class TaskSet:
+    """One row per required pass. ``directed`` False: may be served either way."""
+
+    seg: np.ndarray  # int64 (t,)
+    tail: np.ndarray  # int64 (t,)
+    head: np.ndarray  # int64 (t,)
+    directed: np.ndarray  # bool (t,)
+    minutes: np.ndarray  # float64 (t,), service minutes
+    metres: np.ndarray  # float64 (t,)
+
+    def __len__(self) -> int:
+        return int(self.seg.shape[0])
+
+    def subset(self, rows: np.ndarray) -> "TaskSet":
+        """The tasks at ``rows`` (an index or boolean array), in that order."""
+        return TaskSet(self.seg[rows], self.tail[rows], self.head[rows],
+                       self.directed[rows], self.minutes[rows], self.metres[rows])
+
+
+@dataclass(frozen=True)
+class DeadheadArcs:
+    """One row per legal driving direction of every usable segment."""
+
+    tail: np.ndarray  # int64 (a,)
+    head: np.ndarray  # int64 (a,)
+    seg: np.ndarray  # int64 (a,)
+    forward: np.ndarray  # bool (a,): True for seg_u -> seg_v
+    minutes: np.ndarray  # float64 (a,), deadhead minutes
+    metres: np.ndarray  # float64 (a,)
+
+    def __len__(self) -> int:
+        return int(self.seg.shape[0])
+
+
+def _check_segments(net: Network, segments) -> np.ndarray:
+    seg = np.asarray(segments)
+    if seg.dtype == bool:
+        if seg.shape != (net.n_segments,):
+            raise InputError(f"segment mask has {seg.shape[0]} entries but the network has "
+                             f"{net.n_segments} segments", "give one boolean per segment or a list of ids")
+        return np.flatnonzero(seg)
+    seg = seg.astype(np.int64, copy=False).ravel()
+    bad = seg[(seg < 0) | (seg >= net.n_segments)]
+    if bad.size:
+        raise InputError(f"segment id {int(bad[0])} is not in the network (0..{net.n_segments - 1})",
+                         "give segment ids as array positions of the network")
+    return np.unique(seg)
+
+
+def build_tasks(net: Network, profile: Profile, segments=None) -> TaskSet:
+    """Required passes of ``net`` under ``profile``, optionally only on ``segments``.
+
+    ``segments`` is a list/array of segment ids or a boolean mask; ``None`` serves
+    the whole network. Rows come ordered by segment, then forward, backward,
+    either passes, so the table is deterministic.
+    """
+    p = required_passes(net, profile)
+    keep = np.ones(net.n_segments, bool) if segments is None else np.zeros(net.n_segments, bool)
+    if segments is not None:
+        keep[_check_segments(net, segments)] = True
+    svc = service_minutes(net, profile)
+    sid = np.arange(net.n_segments, dtype=np.int64)
+    parts = []  # (seg, kind) with kind 0 forward, 1 backward, 2 either
+    for kind, count in enumerate((p.forward, p.backward, p.either)):
+        c = np.where(keep, count, 0)
+        parts.append((np.repeat(sid, c), np.full(int(c.sum()), kind, np.int8)))
+    seg = np.concatenate([s for s, _ in parts])
+    kind = np.concatenate([k for _, k in parts])
+    order = np.lexsort((kind, seg))
+    seg, kind = seg[order], kind[order]
+    u, v = net.seg_u[seg], net.seg_v[seg]
+    back = kind == 1
+    return TaskSet(seg=seg, tail=np.where(back, v, u).astype(np.int64), head=np.where(back, u, v).astype(np.int64),
+                   directed=kind != 2, minutes=svc[seg].astype(np.float64),
+                   metres=net.seg_length[seg].astype(np.float64))
+
+
+def build_deadhead(net: Network, profile: Profile) -> DeadheadArcs:
+    """Every legal direction of every usable segment, at deadhead minutes."""
+    tail, head, seg, fwd = net.arcs(profile.ignore_oneway)
+    dh = deadhead_minutes(net, profile)
+    return DeadheadArcs(tail=tail.astype(np.int64), head=head.astype(np.int64), seg=seg.astype(np.int64),
+                        forward=fwd.astype(bool), minutes=dh[seg].astype(np.float64),
+                        metres=net.seg_length[seg].astype(np.float64))
