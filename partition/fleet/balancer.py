@@ -132,7 +132,7 @@ def balance(state: FleetState, sg: StreetGraph, router: Router, eligible: np.nda
             rep.stop = "time limit"
             break
         rep.iterations += 1
-        pairs = _crew_pairs(state.owner, row_of, sg.nb_idx)
+        pairs = crew_pairs(state.owner, row_of, sg.nb_idx)
         kept = False
         for c in np.argsort(-util, kind="stable").tolist():
             nbrs = sorted((n for n in pairs.get(c, ()) if util[n] < util[c]), key=lambda n: (util[n], n))
@@ -163,7 +163,7 @@ def _ratio(state: FleetState) -> float:
     return float(util.max()) / mean if mean > 0 else 1.0
 
 
-def _crew_pairs(owner: np.ndarray, row_of: np.ndarray, nb_idx: np.ndarray) -> dict[int, set[int]]:
+def crew_pairs(owner: np.ndarray, row_of: np.ndarray, nb_idx: np.ndarray) -> dict[int, set[int]]:
     a, b = owner[row_of], owner[nb_idx]
     ok = (a >= 0) & (b >= 0) & (a != b)
     out: dict[int, set[int]] = {}
@@ -192,7 +192,7 @@ def _try_pair(state: FleetState, sg: StreetGraph, router: Router, eligible: np.n
     if want <= 0:
         return False
     for frac in (1.0, 0.5, 0.25):
-        batch = _grow_batch(state, sg, eligible, c, n, want * frac, border=border)
+        batch = grow_batch(state, sg, eligible, c, n, want * frac, border=border)
         if batch is None or batch.size == 0:
             continue
         w = float(sg.work[batch].sum())
@@ -205,9 +205,9 @@ def _try_pair(state: FleetState, sg: StreetGraph, router: Router, eligible: np.n
             rep.moves_kept += 1
             return True
     # a swap: the same border batch goes over, an equal share of the neighbour's border comes back
-    batch = _grow_batch(state, sg, eligible, c, n, want * 0.5, border=border)
+    batch = grow_batch(state, sg, eligible, c, n, want * 0.5, border=border)
     if batch is not None and batch.size:
-        back = _grow_batch(state, sg, eligible, n, c, float(sg.work[batch].sum()) * 0.5, avoid=batch,
+        back = grow_batch(state, sg, eligible, n, c, float(sg.work[batch].sum()) * 0.5, avoid=batch,
                            border=border)
         if back is not None and back.size and _apply_if_better(state, sg, router, c, n, batch, back, old, seed, rep,
                                                                _cost(move_cost, c, n, batch, back)):
@@ -222,7 +222,7 @@ def _rate(route: Route, sg: StreetGraph, segs: np.ndarray) -> float:
     return max(1.0, route.totals.total_min / w) if w > 0 else 1.0
 
 
-def _grow_batch(state: FleetState, sg: StreetGraph, eligible: np.ndarray, c: int, n: int, target: float,
+def grow_batch(state: FleetState, sg: StreetGraph, eligible: np.ndarray, c: int, n: int, target: float,
                 avoid: np.ndarray | None = None, border: BorderTurns | None = None) -> np.ndarray | None:
     """A connected batch of ``c``'s segments along its border with ``n``, about ``target`` service minutes.
 

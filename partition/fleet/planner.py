@@ -39,7 +39,7 @@ from crewcut.plans.planfile import CrewPlan, build_plan
 from crewcut.fleet.executor import LocalRouter, RouteJob, Router, check_workers
 from crewcut.fleet.seeding import seed_territories
 from crewcut.fleet.streets import build_street_graph, depot_travel, round_trips
-from crewcut.fleet.territories import BorderTurns, _describe, grow_territories, polish_borders, smooth_boundaries, territories_of
+from crewcut.fleet.territories import BorderTurns, describe_segment, grow_territories, polish_borders, smooth_boundaries, territories_of
 
 ProgressFn = Callable[[str, float, float], None]
 
@@ -200,7 +200,7 @@ def _check_reach(net: Network, sg, crews: list[FleetCrew], eligible: np.ndarray,
         where = sorted({c.depot for c in crews})
         raise InputError(
             f"{cut.size} segment(s) that need service cannot be reached from any depot and back "
-            f"(depot node(s) {', '.join(map(str, where))}): {_describe(net, cut)}",
+            f"(depot node(s) {', '.join(map(str, where))}): {describe_segment(net, cut)}",
             "closed or one-way streets cut them off; open a street that joins them, set their service "
             "to none, or place a depot where it can reach them")
     limits = np.array([c.shift_limit_min for c in crews], float)
@@ -212,7 +212,7 @@ def _check_reach(net: Network, sg, crews: list[FleetCrew], eligible: np.ndarray,
         raise InputError(
             f"no route can meet the shift limit: serving segment {s} ('{net.seg_source[s]}') from the nearest "
             f"depot and driving back takes {best:,.1f} min, more than the crews' limit of "
-            f"{limits.max():,.0f} min ({bad.size} segment(s) affected: {_describe(net, bad)})",
+            f"{limits.max():,.0f} min ({bad.size} segment(s) affected: {describe_segment(net, bad)})",
             "raise shift_limit_min, or add a crew with a depot nearer to these streets")
 
 

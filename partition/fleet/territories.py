@@ -84,10 +84,10 @@ def grow_territories(net: Network, sg: StreetGraph, centres: np.ndarray, seeds: 
         heapq.heappush(turn, (load[c], c))
     left = np.flatnonzero(sg.required & (owner < 0))
     if left.size:
-        _attach_leftovers(sg, owner, eligible, left)
+        attach_leftovers(sg, owner, eligible, left)
         left = np.flatnonzero(sg.required & (owner < 0))
     if left.size:
-        names = _describe(net, left)
+        names = describe_segment(net, left)
         raise InputError(
             f"{left.size} segment(s) that need service cannot be joined to a connected territory of a crew "
             f"that can reach them: {names}",
@@ -107,7 +107,7 @@ def _push_neighbours(sg: StreetGraph, s: int, c: int, owner: np.ndarray, centres
         heapq.heappush(front, (dist, t))
 
 
-def _attach_leftovers(sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, left: np.ndarray) -> None:
+def attach_leftovers(sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, left: np.ndarray) -> None:
     """Give segments a growing crew could not take (not eligible) to any eligible neighbour territory."""
     changed = True
     todo = set(left.tolist())
@@ -122,7 +122,7 @@ def _attach_leftovers(sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, 
                 changed = True
 
 
-def _describe(net: Network, segs: np.ndarray, limit: int = 8) -> str:
+def describe_segment(net: Network, segs: np.ndarray, limit: int = 8) -> str:
     shown = [f"{int(s)} ('{net.seg_source[int(s)]}')" for s in segs[:limit]]
     more = f" and {segs.size - limit} more" if segs.size > limit else ""
     return ", ".join(shown) + more

@@ -57,7 +57,7 @@ def run(args, ui) -> int:
     from crewcut.solve.readers import read_network
 
     from crewcut.plans.planfile import read_plan, write_plan
-    from crewcut.fleet.replan import change_table, rebalance_plan
+    from crewcut.fleet.replan import rebalance_plan
     from crewcut.plans.verify import profile_of_plan
     from crewcut.reports.workload import workload_table
 
@@ -164,3 +164,39 @@ def _closures(items: list[str]) -> list[str]:
         else:
             out.append(item)
     return out
+
+
+def change_table(rep: dict):
+    """The change report as a rich Table (units in the headers, a totals row, the overall figures below)."""
+    from rich.table import Table
+    from rich.text import Text
+
+    t = Table(title="Changes per crew", header_style="bold", caption_justify="left")
+    cols = (("crew", "left"), ("status", "left"), ("gained (segments)", "right"), ("gained (km)", "right"),
+            ("lost (segments)", "right"), ("lost (km)", "right"), ("old shift (h)", "right"),
+            ("new shift (h)", "right"), ("change (h)", "right"), ("limit today (h)", "right"),
+            ("route sheet", "left"))
+    for name, just in cols:
+        t.add_column(name, justify=just)
+    rows = rep["crews"]
+    for i, r in enumerate(rows):
+        over = r["new_limit_min"] is not None and r["new_shift_min"] > r["new_limit_min"] + 1e-9
+        t.add_row(*[Text(x) for x in (
+            r["crew"], r["status"], str(r["gained"]), f"{r['gained_km']:.2f}", str(r["lost"]), f"{r['lost_km']:.2f}",
+            f"{r['old_shift_min'] / 60:.2f}", f"{r['new_shift_min'] / 60:.2f}",
+            f"{(r['new_shift_min'] - r['old_shift_min']) / 60:+.2f}",
+            "" if r["new_limit_min"] is None else f"{r['new_limit_min'] / 60:.2f}" + (" !" if over else ""),
+            "new" if r["route_changed"] else ("none" if r["status"] == "absent" else "unchanged"))],
+            style="bold red" if over else None, end_section=i == len(rows) - 1)
+    tot_old = sum(r["old_shift_min"] for r in rows)
+    tot_new = sum(r["new_shift_min"] for r in rows)
+    t.add_row(*[Text(x) for x in (
+        "all crews", "", str(sum(r["gained"] for r in rows)), f"{sum(r['gained_km'] for r in rows):.2f}",
+        str(sum(r["lost"] for r in rows)), f"{sum(r['lost_km'] for r in rows):.2f}", f"{tot_old / 60:.2f}",
+        f"{tot_new / 60:.2f}", f"{(tot_new - tot_old) / 60:+.2f}",
+        f"{sum(r['new_limit_min'] or 0 for r in rows) / 60:.2f}", f"{len(rep['routes_changed'])} new")],
+        style="bold")
+    from crewcut.reports.changes import change_lines
+
+    t.caption = "\n".join(change_lines(rep))
+    return t

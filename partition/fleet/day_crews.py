@@ -1,0 +1,109 @@
+"""The crews of the day for a replan: the plan's crews less the absent ones, plus extra crews, with today's limits.
+
+Everything is checked before any work starts: unknown or repeated crew ids,
+depots that snap nowhere or sit on a closed street, shift limits that are not
+positive minutes, and the replan's own settings.
+"""
+from __future__ import annotations
+
+import dataclasses
+import math
+import numbers
+
+import numpy as np
+
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.model import Network
+from crewcut.solve.profile import Profile
+
+from crewcut.fleet.streets import StreetGraph
+from crewcut.fleet.territories import describe_segment
+
+OVERFLOW_MODES = (None, "defer", "overtime")
+
+
+@dataclasses.dataclass(frozen=True)
+class DayCrew:
+    id: str
+    depot: int
+    shift_limit_min: float
+    old: int  # index in the parent plan, -1 for an extra crew
+
+
+def check_params(stability, overflow, tolerance, seed, time_limit_s) -> None:
+    if isinstance(stability, bool) or not isinstance(stability, numbers.Real) or not math.isfinite(stability) \
+            or stability < 0:
+        raise InputError(f"--stability is {stability!r}", "give minutes per segment, 0 or more (0: no stability)")
+    if overflow not in OVERFLOW_MODES:
+        raise InputError(f"overflow mode {overflow!r} is not known", "use 'defer', 'overtime' or nothing")
+    if not (isinstance(tolerance, numbers.Real) and 0 <= tolerance < 1):
+        raise InputError(f"balance tolerance {tolerance!r} is outside [0, 1)", "e.g. 0.03 for 3 %")
+    if isinstance(seed, bool) or not isinstance(seed, numbers.Integral) or seed < 0:
+        raise InputError(f"--seed is {seed!r}", "give a whole number of 0 or more")
+    if time_limit_s is not None and (isinstance(time_limit_s, bool) or not isinstance(time_limit_s, numbers.Real)
+                                     or not math.isfinite(time_limit_s) or time_limit_s < 0):
+        raise InputError(f"--time-limit is {time_limit_s!r}", "give the seconds the balancer may use, 0 or more")
+
+
+def crews_of_the_day(plan: dict, today: Network, profile: Profile, absent, add_crews, shift_limits) -> list[DayCrew]:
+    old = plan["crews"]
+    ids = [str(c["id"]) for c in old]
+    known = set(ids)
+    absent = [str(a) for a in absent]
+    for a in absent:
+        if a not in known:
+            raise InputError(f"unknown crew id '{a}' (--absent)", f"crews in the plan: {', '.join(ids)}")
+    gone = set(absent)
+    extra = []
+    for item in add_crews:
+        try:
+            cid, lon, lat = item
+            cid, lon, lat = str(cid).strip(), float(lon), float(lat)
+        except (TypeError, ValueError):
+            raise InputError(f"extra crew {item!r} is not (id, lon, lat)", "write it as ID@LON,LAT") from None
+        if not cid:
+            raise InputError("an extra crew has an empty id", "write it as ID@LON,LAT, e.g. relief@-30.5,45.2")
+        if cid in known or cid in {e[0] for e in extra}:
+            raise InputError(f"extra crew id '{cid}' is already used", "give the extra crew a new id")
+        extra.append((cid, lon, lat))
+    limits = dict(shift_limits or {})
+    all_ids = [i for i in ids if i not in gone] + [e[0] for e in extra]
+    for cid, value in limits.items():
+        if cid not in all_ids:
+            raise InputError(f"unknown crew id '{cid}' (--shift-limit)" + (" : that crew is absent" if cid in gone else ""),
+                             f"crews at work: {', '.join(all_ids) or 'none'}")
+        if isinstance(value, bool) or not isinstance(value, numbers.Real) or not math.isfinite(value) or value <= 0:
+            raise InputError(f"shift limit of crew '{cid}' is {value!r} minutes",
+                             "give minutes above 0, e.g. 480 for 8 hours")
+    if not all_ids:
+        raise InputError(f"every crew of the plan is absent ({', '.join(ids)}) and no extra crew is given",
+                         "leave at least one crew at work, or add one with --add-crew ID@LON,LAT")
+    from crewcut.solve.network.depot import snap_depot
+
+    crews = [DayCrew(str(c["id"]), int(c["depot_node"]), float(limits.get(str(c["id"]), c["shift_limit_min"])), i)
+             for i, c in enumerate(old) if str(c["id"]) not in gone]
+    for cid, lon, lat in extra:
+        node = snap_depot(today, lon, lat, profile.depot_snap_max_m, who=f"depot of extra crew '{cid}'")
+        crews.append(DayCrew(cid, node, float(limits.get(cid, profile.shift_limit_min)), -1))
+    return crews
+
+
+def check_depots(today: Network, crews: list[DayCrew], closed: np.ndarray, eligible: np.ndarray,
+                  sg: StreetGraph) -> None:
+    shut = ", ".join(f"{int(s)} ('{today.seg_source[int(s)]}')" for s in closed[:8]) or "none"
+    for i, c in enumerate(crews):
+        at = (today.seg_u == c.depot) | (today.seg_v == c.depot)
+        if not (at & ~today.seg_closed).any():
+            raise InputError(f"the closures cut the depot of crew '{c.id}' (node {c.depot}) off the network: every "
+                             f"street at it is closed (closed today: {shut})",
+                             f"keep a street at the depot open, or mark crew '{c.id}' absent")
+        if not eligible[i].any():
+            raise InputError(f"the closures cut the depot of crew '{c.id}' (node {c.depot}) off the network: from it "
+                             f"no street that needs service can be reached and left again (closed today: {shut})",
+                             f"keep a way out of the depot open, or mark crew '{c.id}' absent")
+    cut = np.flatnonzero(sg.required & ~eligible.any(axis=0))
+    if cut.size:
+        raise InputError(f"{cut.size} segment(s) that need service are cut off from every depot: "
+                         f"{describe_segment(today, cut)} (closed today: {shut})",
+                         "keep a street open that joins them to the rest of the network, or add a crew whose "
+                         "depot can reach them")
