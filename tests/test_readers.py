@@ -64,7 +64,7 @@ def test_third_coordinate_is_ignored(tmp_path):
 @pytest.mark.parametrize("props,match", [
     ({"oneway": "sometimes"}, "unknown oneway value 'sometimes'"),
     ({"service": "twice"}, "unknown service value 'twice'"),
-    ({"speed_kmh": -5}, "speed_kmh -5 is not a positive number"),
+    ({"speed_kmh": -5}, "speed_kmh -5 is not a speed between 0.5 and 200 km/h"),
     ({"closed": "maybe"}, "closed 'maybe' is not true or false"),
 ])
 def test_geojson_bad_properties_name_the_feature(tmp_path, props, match):

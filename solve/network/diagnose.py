@@ -143,6 +143,10 @@ def check_network(net: Network, profile: Profile, depot: int | None = None) -> C
     bad_return = open_ & reached & ~ok
 
     findings: list[Finding] = list(net.findings)
+    if not passes[open_].any():
+        findings.append(Finding(
+            "error", "network", "nothing to serve: every street is closed or needs no service under this profile",
+            "open the streets to be served, or check the profile's default_service and the data's service tags"))
     findings += _reach_findings(net, passes, bad_reach, bad_return, place, weak, depot, oneway)
     closed_req = net.seg_closed & (net.seg_service != SERVICE_NONE)
     for src in _sources(net, np.flatnonzero(closed_req)):

@@ -67,10 +67,11 @@ def build_network(lines: list[RawLine], profile: Profile, *, has_geometry: bool 
     if not lines:
         raise InputError(f"{source}: the network is empty: no street lines were found", hint)
     services = _resolve_services(lines, profile)
+    findings = list(findings) + _duplicate_ids(lines)
     if has_geometry:
-        net = _build_geometric(lines, services, profile, list(findings))
+        net = _build_geometric(lines, services, profile, findings)
     else:
-        net = _build_plain(lines, services, profile, list(findings))
+        net = _build_plain(lines, services, profile, findings)
     if net.n_segments == 0:
         raise InputError(f"{source}: the network is empty: all {len(lines)} street line(s) have zero length", hint)
     return net
@@ -117,6 +118,16 @@ def _finish(lines, services, keep_src, u, v, coords, lengths, node_lon, node_lat
                                 for i in keep_src], dtype=np.float64),
         seg_closed=np.array([bool(lines[i].closed) for i in keep_src], dtype=bool),
         seg_coords=coords, has_geometry=has_geometry, origin=origin, findings=tuple(findings))
+
+
+def _duplicate_ids(lines: list[RawLine]) -> list[Finding]:
+    """A warning per feature id that several street lines share (messages and closures name ids)."""
+    seen: dict[str, int] = {}
+    for line in lines:
+        seen[line.source_id] = seen.get(line.source_id, 0) + 1
+    return [Finding("warning", sid, f"feature id '{sid}' is used by {n} street lines; messages and closures "
+                                    "that name it cannot tell them apart",
+                    "give every feature its own id") for sid, n in seen.items() if n > 1]
 
 
 def _clean(lines, parent, u, v, lengths, geom_key, tol, findings):

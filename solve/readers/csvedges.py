@@ -34,10 +34,18 @@ def read_csv_edges(path: str | Path, profile: Profile) -> Network:
         raise InputError(f"{path}: not a UTF-8 text file", "save the CSV as UTF-8") from None
     except OSError as exc:
         raise InputError(f"{path}: cannot be read ({exc.strerror})") from None
+    if "\x00" in text:
+        line = text.count("\n", 0, text.index("\x00")) + 1
+        raise InputError(f"{path}: line {line} holds a NUL byte; this is not a text CSV file",
+                         "export the edge list again as plain UTF-8 comma-separated text")
     try:
-        return _parse(path, csv.reader(io.StringIO(text, newline="")), profile)
+        # strict: an unterminated quote or a stray quote is an error, not a cell that swallows the rest
+        reader = csv.reader(io.StringIO(text, newline=""), strict=True)
+        return _parse(path, reader, profile)
     except csv.Error as exc:
-        raise InputError(f"{path}: not a readable CSV file ({exc})", "save it as plain comma-separated text") from None
+        raise InputError(f"{path}: line {reader.line_num}: not readable as CSV ({exc})",
+                         "close every quoted cell with a quote (RFC 4180) and save as plain comma-separated "
+                         "text") from None
 
 
 def _parse(path: Path, reader, profile: Profile) -> Network:
@@ -46,6 +54,10 @@ def _parse(path: Path, reader, profile: Profile) -> Network:
         raise InputError(f"{path}: empty file, no header row",
                          f"the first row must name the columns: {','.join(REQUIRED)}[,{','.join(OPTIONAL)}]")
     cols = [h.strip().lower() for h in header]
+    twice = sorted({c for c in cols if c and cols.count(c) > 1})
+    if twice:
+        raise InputError(f"{path}: the header names column {', '.join(repr(c) for c in twice)} more than once",
+                         "keep one column of each name; which one is meant cannot be told")
     missing = [c for c in REQUIRED if c not in cols]
     if missing:
         raise InputError(f"{path}: header has no column {', '.join(repr(c) for c in missing)} "

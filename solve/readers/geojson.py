@@ -64,16 +64,21 @@ def parse_service(value, where: str) -> str | None:
     return value.strip()
 
 
+# The speed caps a street may carry: from a walking pace to a motorway's (common practice, no source).
+SPEED_RANGE_KMH = (0.5, 200.0)
+
+
 def parse_speed(value, where: str) -> float | None:
     if value is None or value == "":
         return None
     try:
         speed = float(value)
-    except (TypeError, ValueError):
+    except (TypeError, ValueError, OverflowError):
         speed = math.nan
-    if isinstance(value, bool) or not math.isfinite(speed) or speed <= 0:
-        raise InputError(f"{where}: speed_kmh {value!r} is not a positive number",
-                         "give the street's speed in km/h, greater than zero, or leave it out")
+    lo, hi = SPEED_RANGE_KMH
+    if isinstance(value, bool) or not math.isfinite(speed) or not lo <= speed <= hi:
+        raise InputError(f"{where}: speed_kmh {value!r} is not a speed between {lo:g} and {hi:g} km/h",
+                         f"give the street's speed in km/h ({lo:g} to {hi:g}), or leave it out")
     return speed
 
 
@@ -87,10 +92,21 @@ def parse_closed(value, where: str) -> bool:
     raise InputError(f"{where}: closed {value!r} is not true or false", "write closed: true or closed: false")
 
 
+def _is_position(p) -> bool:
+    # RFC 7946 section 3.1.1: a position is an array of numbers; JSON strings and booleans are not
+    # (type() rather than isinstance(): True is an int to Python).
+    return isinstance(p, list) and len(p) >= 2 and type(p[0]) in (int, float) and type(p[1]) in (int, float)
+
+
 def _positions(coords, where: str) -> np.ndarray:
     """A GeoJSON position list -> (k, 2) float array, checked for shape, numbers and range."""
     if not isinstance(coords, list):
         raise InputError(f"{where}: 'coordinates' is not a list of positions")
+    bad = next((j for j, p in enumerate(coords) if not _is_position(p)), None)
+    if bad is not None:
+        raise InputError(f"{where}: position {bad} is {_short(coords[bad])}, not a pair of JSON numbers",
+                         "every position must be [longitude, latitude] in degrees, written as numbers "
+                         "(RFC 7946 section 3.1.1), not text")
     try:
         arr = np.array([p[:2] if isinstance(p, list) and len(p) >= 2 else [math.nan] * 3 for p in coords],
                        dtype=np.float64)
@@ -111,6 +127,11 @@ def _positions(coords, where: str) -> np.ndarray:
             "this looks like a projected file (metres), but GeoJSON positions are WGS84 degrees",
             "reproject the file to WGS84 longitude/latitude (EPSG:4326) before reading it")
     return arr
+
+
+def _short(value, limit: int = 60) -> str:
+    text = repr(value)
+    return text if len(text) <= limit else text[:limit - 3] + "..."
 
 
 def features_to_lines(doc, source: str) -> list[RawLine]:
@@ -170,6 +191,9 @@ def read_geojson(path: str | Path, profile: Profile) -> Network:
     except json.JSONDecodeError as exc:
         raise InputError(f"{path}: not valid JSON (line {exc.lineno}, column {exc.colno}: {exc.msg})",
                          "fix the JSON syntax there; a GIS export usually gets it right") from None
+    except RecursionError:
+        raise InputError(f"{path}: JSON nested too deeply to be a street file",
+                         "a GeoJSON street file nests a few levels deep; check that this is the right file") from None
     except UnicodeDecodeError:
         raise InputError(f"{path}: not a UTF-8 text file", "GeoJSON must be UTF-8 encoded (RFC 7946)") from None
     except OSError as exc:

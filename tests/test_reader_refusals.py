@@ -1,0 +1,78 @@
+"""Malformed street files are refused with a located message, never coerced or half-read.
+
+Sources: RFC 7946 section 3.1.1 (a GeoJSON position is an array of *numbers*);
+RFC 4180 section 2 (a quoted CSV field ends with a closing quote); a text CSV file
+holds no NUL byte and names each column once (common practice, no source). The
+speed range 0.5 to 200 km/h (a walking pace to a motorway's) is common practice,
+no source.
+"""
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from crewcut.solve.errors import InputError
+from crewcut.solve.network.diagnose import check_network
+from crewcut.solve.profile import Profile
+from crewcut.solve.readers import read_network
+
+
+def _line(coords, **props) -> dict:
+    return {"type": "Feature", "properties": props, "geometry": {"type": "LineString", "coordinates": coords}}
+
+
+def _geojson(tmp_path, *features) -> str:
+    path = tmp_path / "streets.geojson"
+    path.write_text(json.dumps({"type": "FeatureCollection", "features": list(features)}))
+    return str(path)
+
+
+@pytest.mark.parametrize("bad", [["-30.5", "45.2"], [True, 45.2], [-30.5, None], [-30.5], "x"])
+def test_positions_must_be_json_numbers(tmp_path, bad):
+    path = _geojson(tmp_path, _line([[-30.5, 45.2001], bad], id="elm"))
+    before = open(path, "rb").read()
+    with pytest.raises(InputError, match=r"feature 'elm': position 1 .*not a pair of JSON numbers"):
+        read_network(path, Profile())
+    assert open(path, "rb").read() == before  # the input is never modified
+
+
+def test_json_nested_too_deeply_is_a_message_not_a_recursion_error(tmp_path):
+    path = tmp_path / "deep.geojson"
+    path.write_text("[" * 200_000)
+    with pytest.raises(InputError, match="nested too deeply"):
+        read_network(str(path), Profile())
+
+
+@pytest.mark.parametrize("speed", [1e-300, 0.1, 250, "fast", True])
+def test_street_speed_outside_the_working_range(tmp_path, speed):
+    path = _geojson(tmp_path, _line([[-30.5, 45.2], [-30.5, 45.201]], id="oak", speed_kmh=speed))
+    with pytest.raises(InputError, match=r"feature 'oak': speed_kmh .* between 0.5 and 200 km/h"):
+        read_network(path, Profile())
+
+
+@pytest.mark.parametrize("text, match", [
+    ('from,to,length_m\na,b,"12\n', r"line 2: not readable as CSV"),            # RFC 4180: unterminated quote
+    ("from,to,length_m,from\na,b,12,c\n", r"column 'from' more than once"),
+    ("from,to,length_m\na,b,1\x002\n", r"line 2 holds a NUL byte"),
+])
+def test_csv_refusals(tmp_path, text, match):
+    path = tmp_path / "edges.csv"
+    path.write_text(text)
+    with pytest.raises(InputError, match=match):
+        read_network(str(path), Profile())
+
+
+def test_duplicate_feature_ids_are_warned(tmp_path):
+    path = _geojson(tmp_path, _line([[-30.5, 45.2], [-30.5, 45.201]], id="a"),
+                    _line([[-30.5, 45.201], [-30.499, 45.201]], id="a"))
+    report = check_network(read_network(path, Profile()), Profile())
+    assert any(f.feature == "a" and "used by 2 street lines" in f.message for f in report.warnings)
+
+
+def test_nothing_to_serve_is_not_plannable(tmp_path):
+    path = _geojson(tmp_path, _line([[-30.5, 45.2], [-30.5, 45.201]], id="a", closed=True),
+                    _line([[-30.5, 45.201], [-30.499, 45.201]], id="b", service="none"))
+    report = check_network(read_network(path, Profile()), Profile())
+    assert not report.plannable
+    assert any("nothing to serve" in f.message for f in report.errors)
