@@ -37,6 +37,14 @@ _CLASS_TABLES = {
     "default_service": str,
     "priority": int,
 }
+# The range each number may take (common practice, no source): a speed from a walking pace to a
+# motorway's; a turn that costs at most ten minutes; snapping that joins line ends a few metres apart,
+# not separate intersections; a depot at most 100 km from the network; a priority from 0 to 100.
+SPEED_RANGE_KMH = (0.5, 200.0)
+TURN_PENALTY_MAX_S = 600.0
+SNAP_TOLERANCE_MAX_M = 50.0
+DEPOT_SNAP_MAX_M = 100_000.0
+PRIORITY_RANGE = (0, 100)
 _CREW_KEYS = {"id": str, "depot": list, "depot_node": int, "shift_limit_min": (int, float)}
 
 
@@ -122,6 +130,11 @@ def _positive(where: str, key: str, value: float, allow_zero: bool = False) -> N
         raise InputError(f"{where}: setting '{key}' is {value!r}; it must be a finite number {need}")
 
 
+def _at_most(where: str, key: str, value: float, top: float, unit: str) -> None:
+    if value > top:
+        raise InputError(f"{where}: setting '{key}' is {value:g} {unit}; it must be at most {top:g} {unit}")
+
+
 def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
     """Validate a parsed TOML document and build a :class:`Profile`."""
     allowed = set(_SCHEMA) | set(_CLASS_TABLES) | {"crews"}
@@ -150,6 +163,8 @@ def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
         if key in p:
             _positive(source, f"profile.{key}", float(p[key]))
             kw[key] = float(p[key])
+    if "depot_snap_max_m" in kw:
+        _at_most(source, "profile.depot_snap_max_m", kw["depot_snap_max_m"], DEPOT_SNAP_MAX_M, "m")
     if "shift_limit_min" in kw and kw["shift_limit_min"] > 24 * 60:
         raise InputError(f"{source}: setting 'profile.shift_limit_min' is {kw['shift_limit_min']:g} minutes, "
                          "longer than a day", "give the shift length in minutes, e.g. 480 for 8 hours")
@@ -158,11 +173,13 @@ def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
         pen = dict(Profile().turn_penalty_s)
         for key, value in tp.items():
             _positive(source, f"turn_penalty_s.{key}", float(value), allow_zero=True)
+            _at_most(source, f"turn_penalty_s.{key}", float(value), TURN_PENALTY_MAX_S, "s")
             pen[key] = float(value)
         kw["turn_penalty_s"] = pen
     net = data.get("network", {})
     if "snap_tolerance_m" in net:
         _positive(source, "network.snap_tolerance_m", float(net["snap_tolerance_m"]), allow_zero=True)
+        _at_most(source, "network.snap_tolerance_m", float(net["snap_tolerance_m"]), SNAP_TOLERANCE_MAX_M, "m")
         kw["snap_tolerance_m"] = float(net["snap_tolerance_m"])
     if "split_at_touch" in net:
         kw["split_at_touch"] = net["split_at_touch"]
@@ -181,11 +198,15 @@ def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
         for cls, value in sub.items():
             _check_type(source, f"{table}.{cls}", value, t)
             if table.endswith("_kmh"):
-                _positive(source, f"{table}.{cls}", float(value))
-                if value > 200:
-                    raise InputError(f"{source}: setting '{table}.{cls}' is {value} km/h, not a working speed",
-                                     "give speeds in km/h, between 0 and 200")
+                lo, hi = SPEED_RANGE_KMH
+                if not (math.isfinite(value) and lo <= value <= hi):
+                    raise InputError(f"{source}: setting '{table}.{cls}' is {value:g} km/h, not a working speed",
+                                     f"give speeds in km/h, from {lo:g} to {hi:g}")
                 value = float(value)
+            if table == "priority" and not PRIORITY_RANGE[0] <= value <= PRIORITY_RANGE[1]:
+                raise InputError(f"{source}: setting '{table}.{cls}' is {value}",
+                                 f"give a whole number from {PRIORITY_RANGE[0]} to {PRIORITY_RANGE[1]} "
+                                 "(lower numbers can wait first)")
             if table == "default_service" and value not in SERVICE_NAMES:
                 raise InputError(f"{source}: setting '{table}.{cls}' is {value!r}",
                                  f"allowed: {', '.join(SERVICE_NAMES)}")
@@ -228,6 +249,9 @@ def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
                 raise InputError(f"{where}: depot {list(lonlat)} is not a lon/lat position",
                                  "give [longitude, latitude] in degrees, longitude first")
         node = c.get("depot_node")
+        if lonlat is not None and node is not None:
+            raise InputError(f"{where} ('{cid}') has both 'depot' and 'depot_node'; which one is meant cannot be told",
+                             "keep one: depot = [lon, lat] (snapped to the nearest street) or depot_node = N")
         if lonlat is None and node is None:
             raise InputError(f"{where} ('{cid}') has no depot", "add depot = [lon, lat] or depot_node = N")
         built.append(Crew(id=cid, shift_limit_min=limit, depot_lonlat=lonlat, depot_node=node))
@@ -247,6 +271,8 @@ def load_profile(path: str | Path | None) -> Profile:
         data = tomllib.loads(path.read_text(encoding="utf-8"))
     except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
         raise InputError(f"{path}: not valid TOML ({exc})") from None
+    except RecursionError:
+        raise InputError(f"{path}: TOML nested too deeply to be a work profile") from None
     return profile_from_dict(data, source=str(path))
 
 

@@ -231,7 +231,7 @@ def test_unreadable_pbf(capsys, tmp_path):
 
 @pytest.mark.parametrize("toml,text", [
     ('[profile]\ncolour = "red"\n', "unknown key 'profile.colour'"),
-    ("[service_speed_kmh]\ndefault = -3\n", "'service_speed_kmh.default' is -3.0; it must be a finite number greater"),
+    ("[service_speed_kmh]\ndefault = -3\n", "'service_speed_kmh.default' is -3 km/h, not a working speed"),
     ("[profile]\nshift_limit_min = 2000\n", "shift_limit_min' is 2000 minutes, longer than a day"),
 ])
 def test_bad_config(capsys, tmp_path, toml, text):

@@ -76,3 +76,29 @@ def test_nothing_to_serve_is_not_plannable(tmp_path):
     report = check_network(read_network(path, Profile()), Profile())
     assert not report.plannable
     assert any("nothing to serve" in f.message for f in report.errors)
+
+
+@pytest.mark.parametrize("doc, match", [
+    ({"service_speed_kmh": {"default": 1e-300}}, r"service_speed_kmh.default' is 1e-300 km/h"),
+    ({"deadhead_speed_kmh": {"default": 500}}, r"deadhead_speed_kmh.default' is 500 km/h"),
+    ({"turn_penalty_s": {"u_turn": 1e9}}, r"turn_penalty_s.u_turn' is 1e\+09 s; it must be at most 600 s"),
+    ({"turn_penalty_s": {"u_turn": -1}}, r"turn_penalty_s.u_turn' is -1"),
+    ({"network": {"snap_tolerance_m": 1e6}}, r"snap_tolerance_m' is 1e\+06 m; it must be at most 50 m"),
+    ({"priority": {"default": 10**30}}, r"priority.default' is"),
+    ({"profile": {"depot_snap_max_m": 1e9}}, r"depot_snap_max_m' is 1e\+09 m"),
+    ({"crews": [{"id": "a", "depot": [-30.5, 45.2], "depot_node": 3}]}, r"both 'depot' and 'depot_node'"),
+])
+def test_profile_ranges(doc, match):
+    from crewcut.solve.profile import profile_from_dict
+
+    with pytest.raises(InputError, match=match):
+        profile_from_dict(doc, source="test.toml")
+
+
+def test_toml_nested_too_deeply(tmp_path):
+    from crewcut.solve.profile import load_profile
+
+    path = tmp_path / "deep.toml"
+    path.write_text("a = " + "[" * 100_000)
+    with pytest.raises(InputError, match="nested too deeply|not valid TOML"):
+        load_profile(path)

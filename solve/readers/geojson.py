@@ -33,7 +33,7 @@ import numpy as np
 
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_NAMES, Network, RawLine
-from crewcut.solve.profile import Profile
+from crewcut.solve.profile import SPEED_RANGE_KMH, Profile
 from crewcut.solve.network.repair import build_network
 
 ONEWAY_VALUES = {"yes": 1, "true": 1, "1": 1, "no": 0, "false": 0, "0": 0, "-1": -1}
@@ -62,10 +62,6 @@ def parse_service(value, where: str) -> str | None:
         raise InputError(f"{where}: unknown service value {value!r}",
                          f"allowed: {', '.join(SERVICE_NAMES)} (or leave it out for the profile's default)")
     return value.strip()
-
-
-# The speed caps a street may carry: from a walking pace to a motorway's (common practice, no source).
-SPEED_RANGE_KMH = (0.5, 200.0)
 
 
 def parse_speed(value, where: str) -> float | None:
