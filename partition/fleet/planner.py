@@ -24,7 +24,6 @@ Method (cluster first, route second, then local search)
 from __future__ import annotations
 
 import math
-from typing import Callable
 
 import numpy as np
 
@@ -37,11 +36,10 @@ from crewcut.fleet.balancer import BalanceReport, FleetState, balance
 from crewcut.fleet.crews import FleetCrew
 from crewcut.plans.planfile import CrewPlan, build_plan
 from crewcut.fleet.executor import LocalRouter, RouteJob, Router, check_workers
+from crewcut.fleet.progress import ProgressFn
 from crewcut.fleet.seeding import seed_territories
 from crewcut.fleet.streets import build_street_graph, depot_travel, round_trips
 from crewcut.fleet.territories import BorderTurns, describe_segment, grow_territories, polish_borders, smooth_boundaries, territories_of
-
-ProgressFn = Callable[[str, float, float], None]
 
 
 def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: int = 0,
