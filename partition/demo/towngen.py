@@ -40,8 +40,6 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -51,6 +49,8 @@ from scipy.sparse.csgraph import connected_components
 
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.geodesy import unproject
+
+from crewcut.files import atomic_write, atomic_write_many
 
 TOWN_NAME = "Tallowmere"
 CENTRE = (-30.5, 45.2)  # lon, lat of the town centre (invented: open ocean on real maps)
@@ -536,23 +536,9 @@ def dumps_town(town: dict) -> str:
     return json.dumps(town, ensure_ascii=False, separators=(",", ":"), allow_nan=False) + "\n"
 
 
-def _atomic_write_text(path: Path, text: str) -> Path:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(text.encode("utf-8"))
-        os.chmod(tmp, 0o644)  # mkstemp makes owner-only files; these are for sharing
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return path
-
-
 def write_town(path: str | Path, n_segments: int, seed: int = 0) -> Path:
     """Generate a town and write it as GeoJSON, all at once (no partial file on failure)."""
-    return _atomic_write_text(Path(path), dumps_town(generate_town(n_segments, seed)))
+    return atomic_write(path, dumps_town(generate_town(n_segments, seed)))
 
 
 # ------------------------------------------------------------------------ config
@@ -618,6 +604,6 @@ def write_town_and_config(folder: str | Path, n_segments: int = EXAMPLE_SEGMENTS
     """Write ``<stem>.geojson`` and ``<stem>.toml`` into a folder; returns both paths."""
     town = generate_town(n_segments, seed)
     folder = Path(folder)
-    net = _atomic_write_text(folder / f"{stem}.geojson", dumps_town(town))
-    cfg = _atomic_write_text(folder / f"{stem}.toml", town_config(town))
+    net, cfg = atomic_write_many([(folder / f"{stem}.geojson", dumps_town(town)),
+                                  (folder / f"{stem}.toml", town_config(town))])
     return net, cfg

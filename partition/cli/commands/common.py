@@ -95,7 +95,7 @@ def write_or_print(ui, out: str | None, text: str) -> int:
     """Write ``text`` atomically to ``out`` and say so, or to stdout when no file is given."""
     import sys
 
-    from crewcut.plans.planfile import atomic_write
+    from crewcut.files import atomic_write
 
     if out:
         atomic_write(out, text)

@@ -6,7 +6,7 @@ from pathlib import Path
 
 from crewcut.solve.errors import InputError
 
-from crewcut.plans.planfile import atomic_write_many
+from crewcut.files import atomic_write_many
 from crewcut.plans.view import load
 from crewcut.reports.sheets import crew_sheets, html_document, slug, to_html_section, to_markdown, to_text
 
