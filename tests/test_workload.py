@@ -11,7 +11,8 @@ from pyproj import Geod
 from rich.console import Console
 
 from crewcut.cli.main import main
-from crewcut.reports.workload import COLUMNS, workload_rows, workload_summary, workload_table
+from crewcut.cli.tables import workload_table
+from crewcut.reports.workload import COLUMNS, workload_rows, workload_summary
 from planfactory import plan, plan_path  # noqa: F401 (shared fixtures)
 
 

@@ -33,7 +33,7 @@ def depot_from_args(args, net: Network, profile: Profile) -> tuple[int, str, Cre
 
     Returns the node, a description for the screen, and the crew it came from.
     """
-    from crewcut.cli.main import parse_lonlat
+    from crewcut.cli.args import parse_lonlat
 
     if getattr(args, "depot", None):
         lon, lat = parse_lonlat(args.depot)
