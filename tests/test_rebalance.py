@@ -339,7 +339,7 @@ def _bad(capsys, tmp_path, plan: Path, network: Path, *args, expect: str) -> Non
 
 def test_bad_unknown_crew(tmp_path, planned, capsys):
     town, base = planned
-    _bad(capsys, tmp_path, base, town, "--absent", "crew-9", expect="unknown crew id 'crew-9'")
+    _bad(capsys, tmp_path, base, town, "--absent", "crew-9", expect="unknown crew id 'crew-9' (--absent)")
 
 
 def test_bad_every_crew_absent(tmp_path, planned, capsys):

@@ -16,6 +16,7 @@ from rich.markup import escape
 from crewcut.solve.errors import InputError
 
 from crewcut.cli.args import glue_negative_lonlat
+from crewcut.cli.flags import error_words
 
 from crewcut import __version__
 
@@ -78,9 +79,10 @@ def main(argv: list[str] | None = None) -> int:
     try:
         return int(args._run(args, ui) or 0)
     except InputError as exc:
-        ui.err.print(f"[bold red]error:[/] {escape(exc.message)}", highlight=False)
-        if exc.hint:
-            ui.err.print(f"  fix: {exc.hint}", markup=False, highlight=False)
+        message, hint = error_words(exc)
+        ui.err.print(f"[bold red]error:[/] {escape(message)}", highlight=False)
+        if hint:
+            ui.err.print(f"  fix: {hint}", markup=False, highlight=False)
         return 2
     except KeyboardInterrupt:
         ui.err.print("interrupted; nothing was written")

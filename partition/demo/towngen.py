@@ -177,13 +177,13 @@ def _key(a: int, b: np.ndarray, c: np.ndarray | int = 0) -> np.ndarray:
 # ------------------------------------------------------------------------- build
 def _validate(n_segments, seed) -> tuple[int, int]:
     if isinstance(n_segments, bool) or not isinstance(n_segments, (int, np.integer)):
-        raise InputError(f"number of segments must be a whole number, got {n_segments!r}",
-                         f"give a number from {MIN_SEGMENTS:,} to {MAX_SEGMENTS:,}")
+        raise InputError(f"number of segments (`n_segments`) must be a whole number, got {n_segments!r}",
+                         f"give a number from {MIN_SEGMENTS:,} to {MAX_SEGMENTS:,}", param="n_segments")
     if not MIN_SEGMENTS <= n_segments <= MAX_SEGMENTS:
-        raise InputError(f"number of segments {n_segments:,} is outside the range a town can have here",
-                         f"give a number from {MIN_SEGMENTS:,} to {MAX_SEGMENTS:,}")
+        raise InputError(f"number of segments {n_segments:,} (`n_segments`) is outside the range a town can have here",
+                         f"give a number from {MIN_SEGMENTS:,} to {MAX_SEGMENTS:,} segments", param="n_segments")
     if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
-        raise InputError(f"seed must be a whole number, zero or more, got {seed!r}", "for example --seed 0")
+        raise InputError(f"`seed` must be a whole number, zero or more, got {seed!r}", "for example 0", param="seed")
     return int(n_segments), int(seed)
 
 

@@ -53,7 +53,8 @@ def check_workers(workers: int | None) -> None:
     if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int) or workers < 1):
         from crewcut.solve.errors import InputError
 
-        raise InputError(f"--workers is {workers!r}", "give a whole number of 1 or more (default: all cores)")
+        raise InputError(f"`workers` is {workers!r}", "give a whole number of 1 or more (default: all cores)",
+                         param="workers")
 
 
 def default_workers() -> int:

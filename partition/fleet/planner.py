@@ -179,12 +179,13 @@ def crews_needed(total_min: float, lower_bound_min: float, limits: np.ndarray) -
 
 def _check(crews, seed, time_limit_s, tolerance, max_iterations) -> None:
     if not crews:
-        raise InputError("no crews to plan for", "give --crews K --depot LON,LAT or [[crews]] in the config")
+        raise InputError("no crews to plan for", "give crews (`k` and `depot_lonlat`, or [[crews]] in the config)")
     if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
-        raise InputError(f"--seed is {seed!r}", "give a whole number of 0 or more")
+        raise InputError(f"`seed` is {seed!r}", "give a whole number of 0 or more", param="seed")
     if time_limit_s is not None and not (isinstance(time_limit_s, (int, float)) and math.isfinite(time_limit_s)
                                          and time_limit_s >= 0):
-        raise InputError(f"--time-limit is {time_limit_s!r}", "give the seconds the balancer may use, 0 or more")
+        raise InputError(f"`time_limit_s` is {time_limit_s!r}", "give the seconds the balancer may use, 0 or more",
+                         param="time_limit_s")
     if not (0 <= tolerance < 1):
         raise InputError(f"balance tolerance {tolerance!r} is outside [0, 1)", "e.g. 0.01 for 1 %")
     if max_iterations < 0:

@@ -133,7 +133,7 @@ def _run_stage(stage: Stage, paths: dict[str, str], ui) -> tuple[str, float]:
             return f"skipped: needs {exc.name}, not in this version yet", time.perf_counter() - t0
         raise
     except InputError as exc:  # the demo's own input is generated: this is a bug, say where
-        raise InputError(f"demo stage '{' '.join(argv[:1])}': {exc.message}", exc.hint) from None
+        raise InputError(f"demo stage '{' '.join(argv[:1])}': {exc.message}", exc.hint, param=exc.param) from None
     seconds = time.perf_counter() - t0
     return ("done" if code == 0 else f"failed: exit status {code}"), seconds
 
