@@ -12,7 +12,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from fleetnets import check_plan_independently, grid_lines, nx_lower_bound, territory_connected, write_geojson
+from helpers.checks import check_plan_independently, nx_lower_bound, territory_connected
+from helpers.geojson import write_geojson
+from helpers.nets import grid_lines
 from crewcut.cli.main import main
 from crewcut.solve.network.model import RawLine
 

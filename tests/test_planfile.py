@@ -8,7 +8,7 @@ import pytest
 
 from crewcut.cli.main import main
 from crewcut.plans.planfile import read_plan, write_plan
-from planfactory import make_plan
+from helpers.plans import make_plan
 from crewcut.solve.errors import InputError
 
 

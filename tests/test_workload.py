@@ -13,7 +13,7 @@ from rich.console import Console
 from crewcut.cli.main import main
 from crewcut.cli.tables import workload_table
 from crewcut.reports.workload import COLUMNS, workload_rows, workload_summary
-from planfactory import plan, plan_path  # noqa: F401 (shared fixtures)
+
 
 
 def test_rows_follow_the_traversals(plan):
