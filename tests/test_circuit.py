@@ -19,7 +19,7 @@ from hypothesis import strategies as st
 from crewcut.solve.network.model import SERVICE_BOTH_SIDES
 from helpers.checks import assert_closed_walk
 from helpers.nets import grid_network, make_network
-from crewcut.solve.circuits.euler import _Pairs, _best_pairing, euler_circuit, hierholzer
+from crewcut.solve.circuits.euler import euler_circuit, hierholzer, least_penalty_pairing
 from crewcut.solve.profile import Profile
 from crewcut.solve.result import TURNS
 from crewcut.solve.circuits.turns import TurnModel
@@ -125,9 +125,7 @@ def test_pairing_is_optimal_at_every_node_by_brute_force():
     extra = rng.choice(net.n_segments, 8)
     t, h, s, f = both_ways(net, np.concatenate([np.arange(net.n_segments), extra]))
     model = TurnModel.from_network(net, Profile())
-    deg = np.bincount(t, minlength=net.n_nodes)
-    pr = _Pairs(t, h, s, f, net.n_nodes, deg, model)
-    succ = _best_pairing(pr, deg)
+    succ = least_penalty_pairing(t, h, s, f, net.n_nodes, model)
     for v in range(net.n_nodes):
         arr = np.flatnonzero(h == v)
         dep = np.flatnonzero(t == v)
