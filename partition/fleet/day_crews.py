@@ -63,9 +63,11 @@ def crews_of_the_day(plan: dict, today: Network, profile: Profile, absent, add_c
             cid, lon, lat = item
             cid, lon, lat = str(cid).strip(), float(lon), float(lat)
         except (TypeError, ValueError):
-            raise InputError(f"extra crew {item!r} is not (id, lon, lat)", "write it as ID@LON,LAT") from None
+            raise InputError(f"extra crew {item!r} in `add_crews` is not (id, lon, lat)",
+                             "give each extra crew as (id, lon, lat)", param="add_crews") from None
         if not cid:
-            raise InputError("an extra crew has an empty id", "write it as ID@LON,LAT, e.g. relief@-30.5,45.2")
+            raise InputError("an extra crew in `add_crews` has an empty id", "give each extra crew an id, e.g. relief",
+                             param="add_crews")
         if cid in known or cid in {e[0] for e in extra}:
             raise InputError(f"extra crew id '{cid}' is already used", "give the extra crew a new id")
         extra.append((cid, lon, lat))

@@ -124,6 +124,8 @@ def _add_crew(text: str) -> tuple[str, float, float]:
     if "@" not in text:
         raise InputError(f"--add-crew '{text}' is not ID@LON,LAT", "e.g. --add-crew relief@-30.5,45.2")
     cid, where = text.rsplit("@", 1)
+    if not cid.strip():
+        raise InputError(f"--add-crew '{text}' has no crew id before the @", "e.g. --add-crew relief@-30.5,45.2")
     lon, lat = parse_lonlat(where, what=f"--add-crew {cid}")
     return cid, lon, lat
 
