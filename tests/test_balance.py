@@ -1,9 +1,9 @@
 """Planning and balancing on many generated networks: invariants and the lower bound.
 
-Each plan is checked from the plan file alone (``fleetnets.check_plan_independently``):
+Each plan is checked from the plan file alone (``helpers.checks.check_plan_independently``):
 every required pass served exactly once, closed walks from the crews' own depots,
 legal directions; territories connected (networkx); and the longest shift never
-below the min-max lower bound recomputed with networkx (``fleetnets.nx_lower_bound``,
+below the min-max lower bound recomputed with networkx (``helpers.checks.nx_lower_bound``,
 after Ahr and Reinelt 2006, from memory).
 """
 from __future__ import annotations
@@ -13,7 +13,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from fleetnets import check_plan_independently, grid_network, nx_lower_bound, territory_connected
+from helpers.checks import check_plan_independently, nx_lower_bound, territory_connected
+from helpers.nets import repaired_grid
 from crewcut.fleet.crews import resolve_crews
 from crewcut.fleet.planner import plan_fleet
 from crewcut.plans.verify import check_plan
@@ -40,7 +41,7 @@ def _check(plan, net, profile):
 @given(seed=st.integers(0, 10_000), k=st.integers(2, 4), ignore_oneway=st.booleans())
 def test_generated_networks(seed, k, ignore_oneway):
     profile = Profile(ignore_oneway=ignore_oneway, shift_limit_min=1440.0)
-    net = grid_network(8, 6, seed)
+    net = repaired_grid(8, 6, seed)
     crews = resolve_crews(net, profile, k=k, depot_lonlat=(-30.5, 45.2))
     plan = _plan(net, profile, crews, seed=seed)
     _check(plan, net, profile)
@@ -52,7 +53,7 @@ def test_several_depots_and_limits():
     profile = Profile(crews=(Crew("west", 480.0, depot_lonlat=(-30.505, 45.2)),
                              Crew("east", 480.0, depot_lonlat=(-30.495, 45.2)),
                              Crew("half-day", 240.0, depot_lonlat=(-30.5, 45.203))))
-    net = grid_network(14, 8, 4)
+    net = repaired_grid(14, 8, 4)
     crews = resolve_crews(net, profile)
     plan = _plan(net, profile, crews)
     _check(plan, net, profile)
@@ -64,7 +65,7 @@ def test_several_depots_and_limits():
 
 def test_balancer_evens_out_shifts():
     profile = Profile(shift_limit_min=1440.0)
-    net = grid_network(14, 9, 8, drop=0.05)
+    net = repaired_grid(14, 9, 8, drop=0.05)
     crews = resolve_crews(net, profile, k=4, depot_lonlat=(-30.5, 45.2))
     plan = _plan(net, profile, crews)
     _check(plan, net, profile)
@@ -75,7 +76,7 @@ def test_balancer_evens_out_shifts():
 
 def test_time_limit_zero_still_gives_a_valid_plan():
     profile = Profile(shift_limit_min=1440.0)
-    net = grid_network(8, 5, 1)
+    net = repaired_grid(8, 5, 1)
     crews = resolve_crews(net, profile, k=3, depot_lonlat=(-30.5, 45.2))
     plan = _plan(net, profile, crews, time_limit_s=0.0)
     _check(plan, net, profile)
@@ -84,7 +85,7 @@ def test_time_limit_zero_still_gives_a_valid_plan():
 
 def test_over_limit_flagged_with_minutes_and_crews_needed():
     profile = Profile(shift_limit_min=60.0)
-    net = grid_network(10, 6, 3)
+    net = repaired_grid(10, 6, 3)
     crews = resolve_crews(net, profile, k=2, depot_lonlat=(-30.5, 45.2))
     plan = _plan(net, profile, crews)
     s = plan["summary"]

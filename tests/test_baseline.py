@@ -13,7 +13,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from fleetnets import check_plan_independently, grid_network, nx_lower_bound
+from helpers.checks import check_plan_independently, nx_lower_bound
+from helpers.nets import repaired_grid
 from crewcut.fleet.baseline import route_first_split
 from crewcut.fleet.crews import resolve_crews
 from crewcut.plans.planfile import CrewPlan, build_plan
@@ -26,7 +27,7 @@ def test_baseline_valid_and_compared(seed, k):
     from crewcut.solve.route import plan_route
 
     profile = Profile(shift_limit_min=1440.0)
-    net = grid_network(9, 6, seed)
+    net = repaired_grid(9, 6, seed)
     crews = resolve_crews(net, profile, k=k, depot_lonlat=(-30.5, 45.2))
     depot = crews[0].depot
     giant = plan_route(net, profile, depot, None, seed=seed)

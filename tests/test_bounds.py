@@ -9,7 +9,8 @@ import networkx as nx
 import numpy as np
 import pytest
 
-from netfactory import SERVICE_BOTH_SIDES, SERVICE_NONE, SERVICE_ONE_PASS, make_network, metre_profile, random_connected
+from crewcut.solve.network.model import SERVICE_BOTH_SIDES, SERVICE_NONE, SERVICE_ONE_PASS
+from helpers.nets import make_network, metre_profile, random_connected
 from crewcut.solve.postman.bounds import fleet_lower_bound, single_crew_lower_bound
 from crewcut.solve.errors import InputError
 from crewcut.solve.postman.eulerize import eulerize
@@ -99,7 +100,7 @@ def test_bad_arguments():
 # ----------------------------------------------------------------------------- turns
 def _geo_network(rng, n_nodes: int, oneway_share: float = 0.25):
     """A small invented network with straight-line geometry near Tallowmere."""
-    from route_nets import ORIGIN, make_network as make_geo
+    from helpers.nets import ORIGIN, make_network as make_geo
 
     u, v = random_connected(rng, n_nodes, extra=0.8)
     lonlat = np.array(ORIGIN) + rng.uniform(-0.003, 0.003, (n_nodes, 2))
@@ -110,7 +111,7 @@ def _geo_network(rng, n_nodes: int, oneway_share: float = 0.25):
 
 
 def _passes(net, ignore_oneway: bool) -> list[tuple[int, str]]:
-    """Required passes written out from the service codes (the trade's rule, as in fleetnets.passes_needed)."""
+    """Required passes written out from the service codes (the trade's rule, as in helpers.checks.passes_needed)."""
     out = []
     for s in range(net.n_segments):
         ow = bool(net.seg_oneway[s]) and not ignore_oneway
@@ -269,7 +270,7 @@ def test_dead_end_forces_a_u_turn():
     # the crossbar 2-1-3 needs no service. Arriving at the dead end 0 forces a U-turn
     # (90 s); arriving at 1 up the stem forces a turn, at best right (with traffic,
     # 8 s). Each route's last arrival is exempt: one crew leaves 8 s, two leave none.
-    from route_nets import ORIGIN, make_network as make_geo
+    from helpers.nets import ORIGIN, make_network as make_geo
     from crewcut.solve.postman.bounds import turn_lower_bound
 
     d = 0.001

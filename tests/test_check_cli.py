@@ -16,7 +16,7 @@ import networkx as nx
 import numpy as np
 import pytest
 
-from geojson_helpers import GEOD, collection, feature, grid, offset, write
+from helpers.geojson import GEOD, collection, feature, grid, offset, write
 from crewcut.cli.main import main
 from crewcut.solve.network.diagnose import check_network
 from crewcut.solve.profile import Profile

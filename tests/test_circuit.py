@@ -16,8 +16,10 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from route_nets import assert_closed_walk, grid_network, make_network
-from crewcut.solve.circuits.euler import _Pairs, _best_pairing, euler_circuit, hierholzer
+from crewcut.solve.network.model import SERVICE_BOTH_SIDES
+from helpers.checks import assert_closed_walk
+from helpers.nets import grid_network, make_network
+from crewcut.solve.circuits.euler import euler_circuit, hierholzer, least_penalty_pairing
 from crewcut.solve.profile import Profile
 from crewcut.solve.result import TURNS
 from crewcut.solve.circuits.turns import TurnModel
@@ -123,9 +125,7 @@ def test_pairing_is_optimal_at_every_node_by_brute_force():
     extra = rng.choice(net.n_segments, 8)
     t, h, s, f = both_ways(net, np.concatenate([np.arange(net.n_segments), extra]))
     model = TurnModel.from_network(net, Profile())
-    deg = np.bincount(t, minlength=net.n_nodes)
-    pr = _Pairs(t, h, s, f, net.n_nodes, deg, model)
-    succ = _best_pairing(pr, deg)
+    succ = least_penalty_pairing(t, h, s, f, net.n_nodes, model)
     for v in range(net.n_nodes):
         arr = np.flatnonzero(h == v)
         dep = np.flatnonzero(t == v)
@@ -240,7 +240,7 @@ def test_property_circuit_valid_and_never_worse_than_plain(case, traffic):
 def test_self_loop_and_parallel_segments():
     # a loop street (u == v) and two parallel streets between the same nodes
     lonlat = [[-30.5, 45.2], [-30.499, 45.2], [-30.4995, 45.2005]]
-    net = make_network(lonlat, [(0, 1, False), (0, 1, False), (1, 1, False)])
+    net = make_network(lonlat, [(0, 1, False), (0, 1, False), (1, 1, False)], service=SERVICE_BOTH_SIDES)
     # the loop needs coordinates that leave and return: give it a triangle
     net.seg_coords[2] = np.array([[-30.499, 45.2], [-30.4995, 45.2005], [-30.499, 45.2]])
     t = np.array([0, 1, 1])

@@ -14,7 +14,7 @@ from shapely.geometry import shape
 
 from crewcut.cli.main import main
 from crewcut.plans.planfile import write_plan
-from planfactory import make_plan
+from helpers.plans import make_plan
 
 GEOD = Geod(ellps="WGS84")
 

@@ -10,7 +10,9 @@ import networkx as nx
 import numpy as np
 import pytest
 
-from netfactory import SERVICE_NONE, SERVICE_ONE_PASS, assert_valid, make_network, metre_profile, random_strong
+from crewcut.solve.network.model import SERVICE_NONE, SERVICE_ONE_PASS
+from helpers.checks import assert_valid
+from helpers.nets import make_network, metre_profile, random_strong
 from crewcut.solve.errors import InputError
 from crewcut.solve.postman.eulerize import eulerize
 from crewcut.solve.postman.flow import min_cost_flow

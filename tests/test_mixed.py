@@ -14,8 +14,9 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from netfactory import (SERVICE_BOTH_SIDES, SERVICE_NONE, SERVICE_ONE_PASS, assert_valid, make_network,
-                        metre_profile, random_connected)
+from crewcut.solve.network.model import SERVICE_BOTH_SIDES, SERVICE_NONE, SERVICE_ONE_PASS
+from helpers.checks import assert_valid
+from helpers.nets import make_network, metre_profile, random_connected
 from crewcut.solve.postman.eulerize import eulerize
 from crewcut.solve.postman.mixed import solve_mixed
 from crewcut.solve.postman.tasks import build_deadhead, build_tasks

@@ -12,7 +12,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from fleetnets import check_plan_independently, grid_lines, nx_lower_bound, territory_connected, write_geojson
+from helpers.checks import check_plan_independently, nx_lower_bound, territory_connected
+from helpers.geojson import write_geojson
+from helpers.nets import grid_lines
 from crewcut.cli.main import main
 from crewcut.solve.network.model import RawLine
 
@@ -166,3 +168,59 @@ def test_helsinki_four_crews(tmp_path, helsinki_pbf, capsys):
     code, stdout, err = _run(capsys, "verify", out / "plan.json", town)
     assert code == 0, err
     assert "valid: 4 crews" in stdout
+
+
+# The library names its parameters, the command line the flags the user typed. The
+# parameters are the library functions' own (inspect.signature); the flags are the
+# sub-commands' own (their argparse parsers, as `crewcut plan --help` lists them).
+@pytest.mark.parametrize("args,words", [
+    (("--crews", 0, "--depot", "-30.5,45.2"), "--crews is 0"),
+    (("--crews", 2, "--depot", "-30.5,45.2", "--seed", "-1"), "--seed is -1"),
+    (("--depot", "-30.5,45.2"), "--depot was given without --crews"),
+    (("--crews", 2, "--depot", "-29.0,45.2"), "--depot at -29.000000,45.200000 is"),
+])
+def test_bad_input_names_the_flag_typed(tmp_path, town, capsys, args, words):
+    _bad(capsys, tmp_path, town, *args, expect=words)
+
+
+def test_library_errors_name_parameters_not_flags(town):
+    import inspect
+    import pickle
+
+    from crewcut.fleet.crews import resolve_crews
+    from crewcut.fleet.executor import check_workers
+    from crewcut.fleet.planner import plan_fleet
+    from crewcut.solve.errors import InputError
+    from crewcut.solve.profile import load_profile
+    from crewcut.solve.readers import read_network
+
+    profile = load_profile(None)
+    net = read_network(town, profile)
+    cases = [(resolve_crews, lambda: resolve_crews(net, profile, k=0), "k", "`k` is 0"),
+             (resolve_crews, lambda: resolve_crews(net, profile, depot_lonlat=(-30.5, 45.2)), "k", "`depot_lonlat`"),
+             (check_workers, lambda: check_workers(0), "workers", "`workers` is 0"),
+             (plan_fleet, lambda: plan_fleet(net, profile, resolve_crews(net, profile, k=2, depot_lonlat=(-30.5, 45.2)),
+                                             seed=-1), "seed", "`seed` is -1")]
+    for fn, call, param, words in cases:
+        with pytest.raises(InputError) as exc:
+            call()
+        err = exc.value
+        assert err.param == param and param in inspect.signature(fn).parameters
+        assert words in err.message and "--" not in str(err)
+        again = pickle.loads(pickle.dumps(err))  # as it comes back from a worker process
+        assert (again.message, again.hint, again.param) == (err.message, err.hint, err.param)
+
+
+def test_every_flag_in_the_table_is_a_flag_of_a_command(capsys):
+    import re
+
+    from crewcut.cli.flags import FLAGS
+    from crewcut.cli.main import COMMANDS
+
+    helps = ""
+    for name in COMMANDS:
+        with pytest.raises(SystemExit):
+            main([name, "--help"])
+        helps += capsys.readouterr().out
+    typed = set(re.findall(r"(?<![\w-])--[a-z][a-z-]*", helps))
+    assert set(FLAGS.values()) <= typed, set(FLAGS.values()) - typed

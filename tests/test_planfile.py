@@ -8,7 +8,7 @@ import pytest
 
 from crewcut.cli.main import main
 from crewcut.plans.planfile import read_plan, write_plan
-from planfactory import make_plan
+from helpers.plans import make_plan
 from crewcut.solve.errors import InputError
 
 
@@ -49,20 +49,3 @@ def test_written_plan_reads_back_unchanged(tmp_path):
     plan = make_plan(k=2)
     path = write_plan(plan, tmp_path / "plan.json")
     assert read_plan(path) == json.loads(path.read_text())
-
-
-def test_atomic_write_many_all_or_none(tmp_path):
-    """Several files are written all or none: a failure on the second leaves no file and no temporary.
-
-    No-partial-output rule of this project (common practice, no source).
-    """
-    from crewcut.plans.planfile import atomic_write_many
-
-    blocker = tmp_path / "not-a-folder"
-    blocker.write_text("x")
-    with pytest.raises(OSError):
-        atomic_write_many([(tmp_path / "a.txt", "first"), (blocker / "b.txt", "second")])
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["not-a-folder"]
-    written = atomic_write_many([(tmp_path / "a.txt", "first"), (tmp_path / "sub" / "b.txt", b"second")])
-    assert [p.read_bytes() for p in written] == [b"first", b"second"]
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["a.txt", "not-a-folder", "sub"]

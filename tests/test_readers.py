@@ -8,7 +8,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from geojson_helpers import GEOD, collection, feature, grid, offset, write
+from helpers.geojson import GEOD, collection, feature, grid, offset, write
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_BOTH_SIDES, SERVICE_EACH_DIRECTION, SERVICE_NONE, SERVICE_ONE_PASS
 from crewcut.solve.profile import Profile

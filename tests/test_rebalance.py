@@ -2,10 +2,10 @@
 
 Every rebalanced plan is checked from outside the rebalancer: ``crewcut verify``
 (crewcut.cli.commands.verify through crewcut.cli.main.main) against the network
-file, the independent plan checker of tests/fleetnets.py (plain counting and
+file, the independent plan checker of tests/helpers/checks.py (plain counting and
 networkx), connected territories (networkx), and the longest shift against the
 min-max lower bound recomputed with networkx for the crews at work
-(``fleetnets.nx_lower_bound``: Ahr and Reinelt 2006, from memory).
+(``helpers.checks.nx_lower_bound``: Ahr and Reinelt 2006, from memory).
 
 Bad input must give exit status 2, a message naming what is wrong, no
 traceback, no output written and the input files untouched (helper brief, "Bad
@@ -23,7 +23,9 @@ import networkx as nx
 import numpy as np
 import pytest
 
-from fleetnets import check_plan_independently, grid_lines, nx_lower_bound, territory_connected, write_geojson
+from helpers.checks import check_plan_independently, nx_lower_bound, territory_connected
+from helpers.geojson import write_geojson
+from helpers.nets import grid_lines
 from crewcut.cli.main import main
 from crewcut.solve.network.model import RawLine
 
@@ -339,7 +341,7 @@ def _bad(capsys, tmp_path, plan: Path, network: Path, *args, expect: str) -> Non
 
 def test_bad_unknown_crew(tmp_path, planned, capsys):
     town, base = planned
-    _bad(capsys, tmp_path, base, town, "--absent", "crew-9", expect="unknown crew id 'crew-9'")
+    _bad(capsys, tmp_path, base, town, "--absent", "crew-9", expect="unknown crew id 'crew-9' (--absent)")
 
 
 def test_bad_every_crew_absent(tmp_path, planned, capsys):

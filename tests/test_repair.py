@@ -11,7 +11,7 @@ import networkx as nx
 import numpy as np
 import pytest
 
-from geojson_helpers import GEOD, collection, feature, grid, offset
+from helpers.geojson import GEOD, collection, feature, grid, offset
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_BOTH_SIDES, SERVICE_NONE, SERVICE_ONE_PASS
 from crewcut.solve.profile import Profile

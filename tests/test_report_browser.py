@@ -12,7 +12,7 @@ import pytest
 from crewcut.cli.main import main
 from crewcut.plans.planfile import write_plan
 from crewcut.reports.svgmap import PALETTE
-from planfactory import make_plan
+from helpers.plans import make_plan
 
 BROWSERS = ("chromium", "chromium-browser")  # Debian's package installs /usr/bin/chromium
 

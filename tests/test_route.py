@@ -1,7 +1,7 @@
 """One crew's route (crewcut.solve.route.plan_route) and ``crewcut route``, checked from outside.
 
 Every route is checked from the network arrays and networkx alone
-(``route_nets.assert_closed_walk``), and the passes it serves are counted against
+(``helpers.checks.assert_closed_walk``), and the passes it serves are counted against
 the trade's rules (design.md section 2: a two-way street swept on both curbs needs
 one pass each way, a one-way street two passes in its direction; common practice).
 """
@@ -16,7 +16,8 @@ import pytest
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
-from route_nets import ORIGIN, assert_closed_walk, grid_network, make_network
+from helpers.checks import assert_closed_walk
+from helpers.nets import ORIGIN, grid_network, make_network
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_BOTH_SIDES, SERVICE_EACH_DIRECTION, SERVICE_NONE, SERVICE_ONE_PASS
 from crewcut.solve.profile import Profile

@@ -9,7 +9,7 @@ from pyproj import Geod
 from crewcut.cli.main import main
 from crewcut.plans.view import view
 from crewcut.reports.sheets import COMPASS, compass, crew_sheets, initial_bearing, route_sheet, turn_words
-from planfactory import make_plan, plan, plan_path  # noqa: F401 (shared fixtures)
+from helpers.plans import make_plan
 
 
 def _sheets(plan):

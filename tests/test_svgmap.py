@@ -11,7 +11,7 @@ import pytest
 from crewcut.cli.main import main
 from crewcut.plans.view import view
 from crewcut.reports.svgmap import BACKGROUND, DEADHEAD, INK, PALETTE, route_svg, territory_svg
-from planfactory import plan, plan_path  # noqa: F401 (shared fixtures)
+
 from crewcut.solve.errors import InputError
 
 SVG = "{http://www.w3.org/2000/svg}"

@@ -13,7 +13,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from fleetnets import grid_lines, grid_network
+from helpers.nets import grid_lines, repaired_grid
 from crewcut.fleet.crews import resolve_crews
 from crewcut.fleet.planner import plan_fleet
 from crewcut.fleet.seeding import seed_territories
@@ -69,7 +69,7 @@ def _nx_connected(net, sg, segs) -> bool:
 @given(seed=st.integers(0, 10_000), k=st.integers(1, 6), cols=st.integers(4, 11), rows=st.integers(3, 8))
 def test_every_required_segment_in_exactly_one_connected_territory(seed, k, cols, rows):
     profile = Profile()
-    net = grid_network(cols, rows, seed)
+    net = repaired_grid(cols, rows, seed)
     n_req = int((build_street_graph(net, profile).required).sum())
     k = min(k, n_req)
     crews = resolve_crews(net, profile, k=k, depot_lonlat=(-30.5, 45.2))
@@ -86,7 +86,7 @@ def test_every_required_segment_in_exactly_one_connected_territory(seed, k, cols
 
 def test_same_seed_same_territories():
     profile = Profile()
-    net = grid_network(10, 7, 5)
+    net = repaired_grid(10, 7, 5)
     crews = resolve_crews(net, profile, k=4, depot_lonlat=(-30.5, 45.2))
     a = _grow(net, profile, crews, seed=3)[1]
     b = _grow(net, profile, crews, seed=3)[1]
@@ -112,7 +112,7 @@ def test_territories_span_drive_through_streets():
 def test_several_depots_anchor_their_territories():
     profile = Profile(crews=(Crew("west", 480.0, depot_lonlat=(-30.506, 45.2)),
                              Crew("east", 480.0, depot_lonlat=(-30.494, 45.2))))
-    net = grid_network(12, 5, 2)
+    net = repaired_grid(12, 5, 2)
     crews = resolve_crews(net, profile)
     assert crews[0].depot != crews[1].depot
     sg, owner = _grow(net, profile, crews)
@@ -138,32 +138,32 @@ def test_island_behind_closed_bridge_names_the_segments():
 
 @pytest.mark.parametrize("k", [0, -1])
 def test_zero_crews(k):
-    net = grid_network(4, 3, 0)
+    net = repaired_grid(4, 3, 0)
     with pytest.raises(InputError, match="at least one crew"):
         resolve_crews(net, Profile(), k=k, depot_lonlat=(-30.5, 45.2))
 
 
 def test_more_crews_than_required_segments():
-    net = grid_network(3, 2, 0, drop=0.0)
+    net = repaired_grid(3, 2, 0, drop=0.0)
     with pytest.raises(InputError, match="segments need service"):
         resolve_crews(net, Profile(), k=500, depot_lonlat=(-30.5, 45.2))
 
 
 def test_unknown_crew_id():
     profile = Profile(crews=(Crew("north", 480.0, depot_lonlat=(-30.5, 45.2)),))
-    net = grid_network(4, 3, 0)
+    net = repaired_grid(4, 3, 0)
     with pytest.raises(InputError, match="unknown crew id 'south'"):
         resolve_crews(net, profile, only=["south"])
 
 
 def test_depot_far_from_streets():
-    net = grid_network(4, 3, 0)
+    net = repaired_grid(4, 3, 0)
     with pytest.raises(InputError, match="from the nearest usable street"):
         resolve_crews(net, Profile(), k=2, depot_lonlat=(-30.0, 45.2))
 
 
 def test_shift_limit_no_route_can_meet():
-    net = grid_network(6, 4, 0)
+    net = repaired_grid(6, 4, 0)
     profile = Profile(shift_limit_min=0.5)
     crews = resolve_crews(net, profile, k=2, depot_lonlat=(-30.5, 45.2))
     with pytest.raises(InputError, match="no route can meet the shift limit"):
@@ -200,7 +200,7 @@ def test_polish_borders_keeps_territories_and_cuts_border_turns(seed, k):
     from crewcut.solve.circuits.turns import TurnModel
 
     profile = Profile(shift_limit_min=1440.0)
-    net = grid_network(9, 7, seed)
+    net = repaired_grid(9, 7, seed)
     crews = resolve_crews(net, profile, k=k, depot_lonlat=(-30.5, 45.2))
     sg, owner = _grow(net, profile, crews, seed)
     depots = [c.depot for c in crews]
@@ -244,7 +244,7 @@ def test_tidy_handover_only_lowers_border_turns_and_moves_only_the_giver(seed):
     from crewcut.solve.circuits.turns import TurnModel
 
     profile = Profile(shift_limit_min=1440.0)
-    net = grid_network(9, 7, seed)
+    net = repaired_grid(9, 7, seed)
     crews = resolve_crews(net, profile, k=2, depot_lonlat=(-30.5, 45.2))
     sg, owner = _grow(net, profile, crews, seed)
     bt = BorderTurns(net, sg, TurnModel.from_network(net, profile))

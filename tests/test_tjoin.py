@@ -10,7 +10,8 @@ import networkx as nx
 import numpy as np
 import pytest
 
-from netfactory import assert_valid, make_network, metre_profile, random_connected
+from helpers.checks import assert_valid
+from helpers.nets import make_network, metre_profile, random_connected
 from crewcut.solve.postman.eulerize import eulerize
 from crewcut.solve.postman.tasks import build_deadhead, build_tasks
 from crewcut.solve.postman.tjoin import min_tjoin

@@ -1,6 +1,6 @@
 """The plan verifier: accepts valid plans, names the first violation of broken ones.
 
-The valid plans come from ``tests/planfactory.py``, which builds routes with
+The valid plans come from ``tests/helpers/plans.py``, which builds routes with
 networkx's ``eulerize`` and ``eulerian_circuit`` (not with the project's route
 engine or planner), so the verifier is tested against an outside construction.
 Each broken plan breaks exactly one invariant; the test checks the verifier
@@ -12,14 +12,15 @@ import copy
 
 import pytest
 
-from fleetnets import check_plan_independently
+from helpers.checks import check_plan_independently
 from crewcut.plans.verify import check_plan
-from planfactory import grid_network, make_plan
+from helpers.nets import named_grid
+from helpers.plans import make_plan
 from crewcut.solve.profile import Profile
 
 
 def _profile():
-    # the profile planfactory.make_plan uses
+    # the profile helpers.plans.make_plan uses
     return Profile(service_speed_kmh={"default": 6.0}, deadhead_speed_kmh={"default": 25.0})
 
 
@@ -42,7 +43,7 @@ def _retotal(plan: dict) -> None:
 
 @pytest.fixture(scope="module")
 def valid():
-    return make_plan(k=3), grid_network(), _profile()
+    return make_plan(k=3), named_grid(), _profile()
 
 
 def test_valid_plan_passes(valid):
@@ -59,7 +60,7 @@ def _first(plan, net, profile) -> str:
 
 def test_other_network(valid):
     plan, _, profile = valid
-    assert "different network" in _first(plan, grid_network(cols=5), profile)
+    assert "different network" in _first(plan, named_grid(cols=5), profile)
 
 
 def test_route_not_closed(valid):

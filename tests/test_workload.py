@@ -11,8 +11,9 @@ from pyproj import Geod
 from rich.console import Console
 
 from crewcut.cli.main import main
-from crewcut.reports.workload import COLUMNS, workload_rows, workload_summary, workload_table
-from planfactory import plan, plan_path  # noqa: F401 (shared fixtures)
+from crewcut.cli.tables import workload_table
+from crewcut.reports.workload import COLUMNS, workload_rows, workload_summary
+
 
 
 def test_rows_follow_the_traversals(plan):

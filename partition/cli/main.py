@@ -1,6 +1,6 @@
 """The crewcut command line: parse, call, print. Work happens in ``solve`` and ``partition``.
 
-Every sub-command lives in ``partition/commands/<name>.py``. Bad input raises
+Every sub-command lives in ``partition/cli/commands/<name>.py``. Bad input raises
 :class:`crewcut.solve.errors.InputError`; it is printed on stderr and the exit status is 2.
 """
 from __future__ import annotations
@@ -8,13 +8,15 @@ from __future__ import annotations
 import argparse
 import importlib
 import os
-import re
 import sys
 
 from rich.console import Console
 from rich.markup import escape
 
 from crewcut.solve.errors import InputError
+
+from crewcut.cli.args import glue_negative_lonlat
+from crewcut.cli.flags import error_words
 
 from crewcut import __version__
 
@@ -67,32 +69,9 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def parse_lonlat(text: str, what: str = "--depot") -> tuple[float, float]:
-    """'LON,LAT' -> (lon, lat), with a clear message when malformed."""
-    try:
-        lon_s, lat_s = text.split(",")
-        lon, lat = float(lon_s), float(lat_s)
-    except ValueError:
-        raise InputError(f"{what} '{text}' is not LON,LAT", "write it as two numbers, e.g. -30.5,45.2") from None
-    if not (-180 <= lon <= 180 and -90 <= lat <= 90):
-        raise InputError(f"{what} '{text}' is outside lon/lat range", "longitude first, then latitude, in degrees")
-    return lon, lat
-
-
-def _glue_negative_lonlat(argv: list[str]) -> list[str]:
-    """'--depot -30.5,45.2' -> '--depot=-30.5,45.2': argparse takes '-30.5,45.2' for an option."""
-    out: list[str] = []
-    for a in argv:
-        if out and out[-1].startswith("--") and "=" not in out[-1] and re.fullmatch(r"-\d[\d.]*,.*", a):
-            out[-1] = f"{out[-1]}={a}"
-        else:
-            out.append(a)
-    return out
-
-
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
-    args = parser.parse_args(_glue_negative_lonlat(sys.argv[1:] if argv is None else list(argv)))
+    args = parser.parse_args(glue_negative_lonlat(sys.argv[1:] if argv is None else list(argv)))
     if not getattr(args, "_run", None):
         parser.print_help()
         return 2
@@ -100,9 +79,10 @@ def main(argv: list[str] | None = None) -> int:
     try:
         return int(args._run(args, ui) or 0)
     except InputError as exc:
-        ui.err.print(f"[bold red]error:[/] {escape(exc.message)}", highlight=False)
-        if exc.hint:
-            ui.err.print(f"  fix: {exc.hint}", markup=False, highlight=False)
+        message, hint = error_words(exc)
+        ui.err.print(f"[bold red]error:[/] {escape(message)}", highlight=False)
+        if hint:
+            ui.err.print(f"  fix: {hint}", markup=False, highlight=False)
         return 2
     except KeyboardInterrupt:
         ui.err.print("interrupted; nothing was written")

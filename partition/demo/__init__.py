@@ -1,1 +1,1 @@
-"""The invented demo town Tallowmere: a seeded generator of street networks and their configs (demo data and benchmarks only)."""
+"""The invented demo town Tallowmere (demo data and benchmarks only): layout (the seeded street generator), street_names, towngen (its files and config)."""

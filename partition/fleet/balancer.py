@@ -46,10 +46,10 @@ import numpy as np
 from crewcut.solve.result import Route
 
 from crewcut.fleet.executor import RouteJob, Router
+from crewcut.fleet.progress import ProgressFn
 from crewcut.fleet.streets import StreetGraph
 from crewcut.fleet.territories import BorderTurns, is_connected, pieces, tidy_handover
 
-ProgressFn = Callable[[str, float, float], None]
 # move_cost(heavy crew, light crew, segments given, segments taken back) -> share of a shift limit
 MoveCostFn = Callable[[int, int, np.ndarray, np.ndarray], float]
 

@@ -1,4 +1,4 @@
-"""Crews for a plan: from the config's ``[[crews]]`` tables or the ``--crews K --depot LON,LAT`` shortcut.
+"""Crews for a plan: from the config's ``[[crews]]`` tables or the shortcut of k crews sharing one depot.
 
 Every crew ends up with a depot *node* (a lon/lat depot is snapped to the nearest
 usable node with :func:`crewcut.solve.network.depot.snap_depot`) and a shift limit in minutes.
@@ -46,28 +46,29 @@ def resolve_crews(net: Network, profile: Profile, *, k: int | None = None,
     """
     if k is not None:
         if isinstance(k, bool) or not isinstance(k, (int, np.integer)) or k < 1:
-            raise InputError(f"--crews is {k!r}; a plan needs at least one crew",
-                             "give a whole number of crews of 1 or more, e.g. --crews 4")
+            raise InputError(f"`k` is {k!r}; a plan needs at least one crew",
+                             "give a whole number of crews of 1 or more, e.g. 4", param="k")
         if only:
-            raise InputError("--crews K and --crew ID cannot be combined",
-                             "use --crews K for k identical crews, or pick config crews with --crew")
+            raise InputError("`k` and `only` cannot be combined",
+                             "use `k` for k identical crews, or pick config crews with `only`", param="only")
         if depot_lonlat is not None:
-            node = snap_depot(net, depot_lonlat[0], depot_lonlat[1], profile.depot_snap_max_m, who="--depot")
+            node = snap_depot(net, depot_lonlat[0], depot_lonlat[1], profile.depot_snap_max_m, who="`depot_lonlat`")
         elif profile.crews:
             node = _crew_depot(net, profile, profile.crews[0])
         else:
-            raise InputError("--crews was given without a depot and the config defines no crews",
-                             "add --depot LON,LAT (the yard's position), or [[crews]] tables to the config")
+            raise InputError("`k` was given without a depot and the config defines no crews",
+                             "add `depot_lonlat` (the yard's position), or [[crews]] tables to the config",
+                             param="depot_lonlat")
         width = len(str(int(k)))
         crews = [FleetCrew(f"crew-{i + 1:0{width}d}", node, float(profile.shift_limit_min)) for i in range(int(k))]
     else:
         if depot_lonlat is not None:
-            raise InputError("--depot was given without --crews",
-                             "give --crews K too, or define the crews and their depots in the config")
+            raise InputError("`depot_lonlat` was given without `k`",
+                             "give `k` too, or define the crews and their depots in the config", param="k")
         if not profile.crews:
             raise InputError(f"{profile.source}: no crews to plan for",
                              "add [[crews]] tables (id, depot, shift_limit_min) to the config, "
-                             "or give --crews K --depot LON,LAT")
+                             "or give `k` and `depot_lonlat`")
         chosen = list(profile.crews)
         if only:
             known = {c.id: c for c in profile.crews}
@@ -76,7 +77,7 @@ def resolve_crews(net: Network, profile: Profile, *, k: int | None = None,
                     raise InputError(f"unknown crew id '{cid}'",
                                      f"crews defined in {profile.source}: {', '.join(sorted(known))}")
             if len(set(only)) != len(only):
-                raise InputError("a crew id is given twice with --crew", "name each crew once")
+                raise InputError("a crew id is given twice in `only`", "name each crew once", param="only")
             keep = set(only)
             chosen = [c for c in profile.crews if c.id in keep]
         crews = [FleetCrew(c.id, _crew_depot(net, profile, c), float(c.shift_limit_min)) for c in chosen]

@@ -33,16 +33,18 @@ class DayCrew:
 def check_params(stability, overflow, tolerance, seed, time_limit_s) -> None:
     if isinstance(stability, bool) or not isinstance(stability, numbers.Real) or not math.isfinite(stability) \
             or stability < 0:
-        raise InputError(f"--stability is {stability!r}", "give minutes per segment, 0 or more (0: no stability)")
+        raise InputError(f"`stability` is {stability!r}", "give minutes per segment, 0 or more (0: no stability)",
+                         param="stability")
     if overflow not in OVERFLOW_MODES:
         raise InputError(f"overflow mode {overflow!r} is not known", "use 'defer', 'overtime' or nothing")
     if not (isinstance(tolerance, numbers.Real) and 0 <= tolerance < 1):
         raise InputError(f"balance tolerance {tolerance!r} is outside [0, 1)", "e.g. 0.03 for 3 %")
     if isinstance(seed, bool) or not isinstance(seed, numbers.Integral) or seed < 0:
-        raise InputError(f"--seed is {seed!r}", "give a whole number of 0 or more")
+        raise InputError(f"`seed` is {seed!r}", "give a whole number of 0 or more", param="seed")
     if time_limit_s is not None and (isinstance(time_limit_s, bool) or not isinstance(time_limit_s, numbers.Real)
                                      or not math.isfinite(time_limit_s) or time_limit_s < 0):
-        raise InputError(f"--time-limit is {time_limit_s!r}", "give the seconds the balancer may use, 0 or more")
+        raise InputError(f"`time_limit_s` is {time_limit_s!r}", "give the seconds the balancer may use, 0 or more",
+                         param="time_limit_s")
 
 
 def crews_of_the_day(plan: dict, today: Network, profile: Profile, absent, add_crews, shift_limits) -> list[DayCrew]:
@@ -52,7 +54,8 @@ def crews_of_the_day(plan: dict, today: Network, profile: Profile, absent, add_c
     absent = [str(a) for a in absent]
     for a in absent:
         if a not in known:
-            raise InputError(f"unknown crew id '{a}' (--absent)", f"crews in the plan: {', '.join(ids)}")
+            raise InputError(f"unknown crew id '{a}' (`absent`)", f"crews in the plan: {', '.join(ids)}",
+                             param="absent")
     gone = set(absent)
     extra = []
     for item in add_crews:
@@ -60,9 +63,11 @@ def crews_of_the_day(plan: dict, today: Network, profile: Profile, absent, add_c
             cid, lon, lat = item
             cid, lon, lat = str(cid).strip(), float(lon), float(lat)
         except (TypeError, ValueError):
-            raise InputError(f"extra crew {item!r} is not (id, lon, lat)", "write it as ID@LON,LAT") from None
+            raise InputError(f"extra crew {item!r} in `add_crews` is not (id, lon, lat)",
+                             "give each extra crew as (id, lon, lat)", param="add_crews") from None
         if not cid:
-            raise InputError("an extra crew has an empty id", "write it as ID@LON,LAT, e.g. relief@-30.5,45.2")
+            raise InputError("an extra crew in `add_crews` has an empty id", "give each extra crew an id, e.g. relief",
+                             param="add_crews")
         if cid in known or cid in {e[0] for e in extra}:
             raise InputError(f"extra crew id '{cid}' is already used", "give the extra crew a new id")
         extra.append((cid, lon, lat))
@@ -70,14 +75,14 @@ def crews_of_the_day(plan: dict, today: Network, profile: Profile, absent, add_c
     all_ids = [i for i in ids if i not in gone] + [e[0] for e in extra]
     for cid, value in limits.items():
         if cid not in all_ids:
-            raise InputError(f"unknown crew id '{cid}' (--shift-limit)" + (" : that crew is absent" if cid in gone else ""),
-                             f"crews at work: {', '.join(all_ids) or 'none'}")
+            raise InputError(f"unknown crew id '{cid}' (`shift_limits`)" + (" : that crew is absent" if cid in gone else ""),
+                             f"crews at work: {', '.join(all_ids) or 'none'}", param="shift_limits")
         if isinstance(value, bool) or not isinstance(value, numbers.Real) or not math.isfinite(value) or value <= 0:
             raise InputError(f"shift limit of crew '{cid}' is {value!r} minutes",
                              "give minutes above 0, e.g. 480 for 8 hours")
     if not all_ids:
         raise InputError(f"every crew of the plan is absent ({', '.join(ids)}) and no extra crew is given",
-                         "leave at least one crew at work, or add one with --add-crew ID@LON,LAT")
+                         "leave at least one crew at work, or add one with `add_crews`")
     from crewcut.solve.network.depot import snap_depot
 
     crews = [DayCrew(str(c["id"]), int(c["depot_node"]), float(limits.get(str(c["id"]), c["shift_limit_min"])), i)

@@ -105,7 +105,7 @@ def _differences(plan: dict, net: Network, closed: np.ndarray, limit: int = 6) -
         if bool(rec["oneway"]) != bool(net.seg_oneway[s]):
             why.append("one-way differs")
         if bool(rec["closed"]) != bool(net.seg_closed[s]) and s not in named:
-            why.append("closed in the file but not named with --close" if net.seg_closed[s] else
+            why.append("closed in the file but not named with `close`" if net.seg_closed[s] else
                        "open in the file but closed in the plan")
         if rec["service"] != SERVICE_LABELS[int(net.seg_service[s])]:
             why.append(f"service {SERVICE_LABELS[int(net.seg_service[s])]} instead of {rec['service']}")
@@ -127,8 +127,8 @@ def match_network(plan: dict, net: Network, profile: Profile, closed: np.ndarray
     """
     nw = plan["network"]
     segs, m, n = nw["segments"], len(nw["segments"]), len(nw["nodes"])
-    hint = ("give the network file the plan was made on (or that file with exactly the --close streets marked "
-            "closed), and new streets with --open FILE")
+    hint = ("give the network file the plan was made on (or that file with exactly the `close` streets marked "
+            "closed), and new streets as `opened`")
     if net.n_segments < m or net.n_nodes < n or (m and int(max(net.seg_u[:m].max(), net.seg_v[:m].max())) >= n):
         raise InputError(f"{name} is not the network the plan was made on: it has {net.n_segments} segments and "
                          f"{net.n_nodes} nodes, "
@@ -148,18 +148,18 @@ def match_network(plan: dict, net: Network, profile: Profile, closed: np.ndarray
     if bad.size:
         raise InputError(f"{name}: the minutes of {bad.size} segment(s) differ from the plan's (speed limits or the "
                          f"profile changed): {describe_segment(net, bad)}",
-                         "give the network and --config the plan was made with")
+                         "give the network and `profile` the plan was made with")
     extra = net.seg_source[m:]
     if not extra:
         return False
     if opened_sources is None:
         raise InputError(f"{name} has {len(extra)} street segment(s) the plan does not know "
                          f"({', '.join(repr(s) for s in extra[:6])}{' ...' if len(extra) > 6 else ''})",
-                         "if they are new streets, give them with --open FILE as well; otherwise give the plan's "
+                         "if they are new streets, give them as `opened` as well; otherwise give the plan's "
                          "network")
     if sorted(extra) != sorted(opened_sources):
-        raise InputError(f"{name} has streets after the plan's that are not exactly the --open streets",
-                         "give the plan's network with --network and the new streets with --open FILE")
+        raise InputError(f"{name} has streets after the plan's that are not exactly the `opened` streets",
+                         "give the plan's network as `net` and the new streets as `opened`", param="opened")
     return True
 
 
@@ -172,10 +172,11 @@ def append_streets(base: Network, add: Network, tol_m: float) -> Network:
     refused: splitting that segment would change the ids the plan uses.
     """
     if add.n_segments == 0:
-        raise InputError("the added streets (--open) hold no street segment", "give a file with the new streets")
+        raise InputError("the added streets (`opened`) hold no street segment", "give a file with the new streets",
+                         param="opened")
     if base.has_geometry != add.has_geometry:
-        raise InputError("the added streets (--open) and the network must both have coordinates, or both not",
-                         "give the new streets in the same kind of file as the network")
+        raise InputError("the added streets (`opened`) and the network must both have coordinates, or both not",
+                         "give the new streets in the same kind of file as the network", param="opened")
     clash = sorted(set(add.seg_source) & set(base.seg_source))
     if clash:
         raise InputError(f"added street(s) {', '.join(repr(c) for c in clash[:6])} already exist in the network",

@@ -53,7 +53,8 @@ def check_workers(workers: int | None) -> None:
     if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int) or workers < 1):
         from crewcut.solve.errors import InputError
 
-        raise InputError(f"--workers is {workers!r}", "give a whole number of 1 or more (default: all cores)")
+        raise InputError(f"`workers` is {workers!r}", "give a whole number of 1 or more (default: all cores)",
+                         param="workers")
 
 
 def default_workers() -> int:
@@ -104,7 +105,6 @@ class LocalRouter:
         self.workers = default_workers() if workers is None else workers
         self.options = {"time_limit_s": float(time_limit_s), "turn_aware": bool(turn_aware)}
         self._pool: Executor | None = None
-        self.calls = 0  # territories routed, for reports
 
     def _executor(self) -> Executor:
         if self._pool is None:
@@ -113,7 +113,6 @@ class LocalRouter:
         return self._pool
 
     def route_many(self, jobs: Sequence[RouteJob]) -> list[Route]:
-        self.calls += len(jobs)
         if self.workers == 1 or len(jobs) <= 1:
             return [solve_job(self.net, self.profile, j, **self.options) for j in jobs]
         return list(self._executor().map(_solve, jobs))

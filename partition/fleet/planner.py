@@ -24,7 +24,6 @@ Method (cluster first, route second, then local search)
 from __future__ import annotations
 
 import math
-from typing import Callable
 
 import numpy as np
 
@@ -37,11 +36,10 @@ from crewcut.fleet.balancer import BalanceReport, FleetState, balance
 from crewcut.fleet.crews import FleetCrew
 from crewcut.plans.planfile import CrewPlan, build_plan
 from crewcut.fleet.executor import LocalRouter, RouteJob, Router, check_workers
+from crewcut.fleet.progress import ProgressFn
 from crewcut.fleet.seeding import seed_territories
 from crewcut.fleet.streets import build_street_graph, depot_travel, round_trips
 from crewcut.fleet.territories import BorderTurns, describe_segment, grow_territories, polish_borders, smooth_boundaries, territories_of
-
-ProgressFn = Callable[[str, float, float], None]
 
 
 def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: int = 0,
@@ -181,12 +179,13 @@ def crews_needed(total_min: float, lower_bound_min: float, limits: np.ndarray) -
 
 def _check(crews, seed, time_limit_s, tolerance, max_iterations) -> None:
     if not crews:
-        raise InputError("no crews to plan for", "give --crews K --depot LON,LAT or [[crews]] in the config")
+        raise InputError("no crews to plan for", "give crews (`k` and `depot_lonlat`, or [[crews]] in the config)")
     if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
-        raise InputError(f"--seed is {seed!r}", "give a whole number of 0 or more")
+        raise InputError(f"`seed` is {seed!r}", "give a whole number of 0 or more", param="seed")
     if time_limit_s is not None and not (isinstance(time_limit_s, (int, float)) and math.isfinite(time_limit_s)
                                          and time_limit_s >= 0):
-        raise InputError(f"--time-limit is {time_limit_s!r}", "give the seconds the balancer may use, 0 or more")
+        raise InputError(f"`time_limit_s` is {time_limit_s!r}", "give the seconds the balancer may use, 0 or more",
+                         param="time_limit_s")
     if not (0 <= tolerance < 1):
         raise InputError(f"balance tolerance {tolerance!r} is outside [0, 1)", "e.g. 0.01 for 1 %")
     if max_iterations < 0:

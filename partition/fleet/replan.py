@@ -77,7 +77,7 @@ with the segments that differ named.
 from __future__ import annotations
 
 import hashlib
-from typing import Callable, Iterable, Sequence
+from typing import Iterable, Sequence
 
 import numpy as np
 
@@ -91,13 +91,12 @@ from crewcut.fleet.day_network import network_of_the_day, resolve_closures
 from crewcut.fleet.executor import LocalRouter, RouteJob, Router, check_workers
 from crewcut.fleet.handover import BAND, grow_extra, grow_pool, pool_quotas, release_pieces, transfers
 from crewcut.fleet.planner import fleet_summary
+from crewcut.fleet.progress import ProgressFn
 from crewcut.fleet.streets import StreetGraph, build_street_graph, depot_travel, round_trips
 from crewcut.fleet.territories import DEADHEAD_ALLOWANCE, attach_leftovers, territories_of
 from crewcut.plans.planfile import CrewPlan, build_plan, dumps, route_from_section
 from crewcut.plans.verify import profile_of_plan
 from crewcut.reports.changes import change_report
-
-ProgressFn = Callable[[str, float, float], None]
 
 __all__ = ["OVERFLOW_MODES", "rebalance_plan", "resolve_closures"]
 

@@ -6,7 +6,7 @@ traversals; each crew has one route today, but a crew may later hold several
 ``verify`` or ``rebalance`` needs is in the file: nodes, segments with their
 geometry, the settings, the crews, their territories and routes.
 
-Writing is atomic (a temporary file in the same folder, then a rename), numbers
+Writing is atomic (:func:`crewcut.files.atomic_write`), numbers
 are rounded to fixed decimals, and keys keep a fixed order, so the same plan
 gives the same bytes.
 """
@@ -14,8 +14,6 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import tempfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -26,6 +24,8 @@ from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_LABELS, Network
 from crewcut.solve.profile import Profile
 from crewcut.solve.result import Route, RouteTotals, Traversal
+
+from crewcut.files import atomic_write
 
 FORMAT = "crewcut-plan"
 VERSION = 1
@@ -154,42 +154,6 @@ def _rounded(d):
 
 def dumps(plan: dict) -> str:
     return json.dumps(plan, ensure_ascii=False, separators=(",", ":"), allow_nan=False) + "\n"
-
-
-def atomic_write(path: str | Path, text: str | bytes) -> Path:
-    """Write a file all at once: a temporary file in the same folder, then a rename.
-
-    A failure part-way leaves no partial file behind.
-    """
-    return atomic_write_many([(path, text)])[0]
-
-
-def atomic_write_many(files: list[tuple[str | Path, str | bytes]]) -> list[Path]:
-    """Write several files all or none: every temporary file first, the renames last.
-
-    A failure while writing (a full disk, a folder that cannot be made) removes
-    the temporary files and leaves none of the files behind.
-    """
-    done: list[tuple[str, Path]] = []
-    try:
-        for path, text in files:
-            path = Path(path)
-            path.parent.mkdir(parents=True, exist_ok=True)
-            data = text.encode("utf-8") if isinstance(text, str) else text
-            fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
-            done.append((tmp, path))
-            with os.fdopen(fd, "wb") as fh:
-                fh.write(data)
-            umask = os.umask(0)
-            os.umask(umask)
-            os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; give the usual file mode
-    except BaseException:
-        for tmp, _ in done:
-            Path(tmp).unlink(missing_ok=True)
-        raise
-    for tmp, path in done:
-        os.replace(tmp, path)
-    return [p for _, p in done]
 
 
 def write_plan(plan: dict, path: str | Path) -> Path:

@@ -22,6 +22,7 @@ from dataclasses import dataclass, field
 from crewcut.plans.view import PlanView
 
 UNNAMED = "unnamed street"
+SHEET_FORMATS = ("txt", "md", "html")
 COMPASS = ("N", "NE", "E", "SE", "S", "SW", "W", "NW")
 
 
@@ -238,3 +239,30 @@ def slug(text: str) -> str:
     """A file-name-safe form of a crew or route id."""
     s = re.sub(r"[^A-Za-z0-9_.-]+", "_", text).strip("._")
     return s or "crew"
+
+
+def sheet_files(pv: PlanView, crews: list[dict], form: str) -> list[tuple[str, str]]:
+    """The sheets of ``crews`` as (file name, text) pairs in a :data:`SHEET_FORMATS` form.
+
+    txt and md give one file per crew (``sheet-<crew>.<form>``, the crew id made
+    safe for a file name, kept apart when two ids give the same safe form); html
+    gives one document, ``sheets.html``, with a printed page per crew.
+    """
+    if form not in SHEET_FORMATS:
+        raise ValueError(f"unknown sheet format {form!r}; one of {', '.join(SHEET_FORMATS)}")
+    sheets = crew_sheets(pv, crews)
+    if form == "html":
+        from crewcut.reports.svgmap import crew_colours
+        colours = crew_colours(pv)
+        body = "\n".join(to_html_section(s, colours[s.crew]) for s in sheets) or "<p>no crews selected</p>"
+        return [("sheets.html", html_document(f"Route sheets - {pv.title}", body))]
+    fn = to_markdown if form == "md" else to_text
+    files: dict[str, list[str]] = {}
+    used: dict[str, str] = {}
+    for s in sheets:
+        base = slug(s.crew)
+        while base in used and used[base] != s.crew:  # two ids with the same safe form
+            base += "_"
+        used[base] = s.crew
+        files.setdefault(f"sheet-{base}.{form}", []).append(fn(s))
+    return [(name, "\n".join(parts)) for name, parts in files.items()]

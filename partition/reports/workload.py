@@ -2,8 +2,8 @@
 
 One row per crew plus a totals row, computed from the plan file alone (route
 traversals and crew shift limits). ``workload_rows`` gives plain data (used by
-the csv/md/json forms of ``crewcut table``); ``workload_table`` a rich table
-for the terminal (used by ``crewcut table`` and after ``crewcut plan``).
+``workload_text``); ``workload_text`` the table as CSV, Markdown or JSON text.
+The terminal table is drawn by the command line from the same rows.
 
 Definitions (minutes and metres from the traversals, summed over a crew's routes):
 service km / h: traversals in ``service`` mode; driving h: deadhead minutes plus
@@ -14,8 +14,9 @@ The lower bound and gap come from the plan's ``summary`` (keys
 """
 from __future__ import annotations
 
-from rich.table import Table
-from rich.text import Text
+import csv
+import io
+import json
 
 from crewcut.plans.view import PlanView, view
 
@@ -34,6 +35,7 @@ COLUMNS: tuple[tuple[str, str, str], ...] = (
     ("shift_h", "shift (h)", "right"),
     ("limit_pct", "shift limit used (%)", "right"),
 )
+TEXT_FORMATS = ("csv", "md", "json")
 DECIMALS = {"service_km": 2, "deadhead_km": 2, "deadhead_pct": 1, "service_h": 2, "driving_h": 2,
             "shift_h": 2, "limit_pct": 1}
 
@@ -140,19 +142,36 @@ def summary_lines(plan: dict) -> list[str]:
     return lines
 
 
-def workload_table(plan: dict) -> Table:
-    """The workload table as a rich Table (crews over their shift limit in bold red, marked '!')."""
+def workload_text(plan: dict, form: str) -> str:
+    """The table as text in one of the plain formats :data:`TEXT_FORMATS` (csv, md, json)."""
     pv = plan if isinstance(plan, PlanView) else view(plan)
+    if form not in TEXT_FORMATS:
+        raise ValueError(f"unknown table format {form!r}; one of {', '.join(TEXT_FORMATS)}")
     rows = workload_rows(pv)
-    table = Table(title="Workload per crew", caption="\n".join(summary_lines(pv)), caption_justify="left",
-                  show_footer=False, header_style="bold")
-    for _key, header, justify in COLUMNS:
-        table.add_column(header, justify=justify)
-    for r in rows:
-        over = r["row"] == "crew" and r["over_limit_min"] > 0
-        cells = [fmt(k, r[k]) for k, _h, _j in COLUMNS]
-        if over:
-            cells[-1] += " !"
-        style = "bold red" if over else ("bold" if r["row"] == "total" else None)
-        table.add_row(*[Text(c) for c in cells], style=style, end_section=len(rows) > 1 and r is rows[-2])
-    return table
+    if form == "json":
+        def rnd(d: dict) -> dict:
+            return {k: (round(v, 4) if isinstance(v, float) else v) for k, v in d.items()}
+        summ = workload_summary(pv)
+        summ = {**rnd(summ), "over_limit": [rnd(o) for o in summ["over_limit"]]}
+        rows = [rnd(r) for r in rows]
+        doc = {"columns": {k: h for k, h, _ in COLUMNS}, "rows": rows, "summary": summ}
+        return json.dumps(doc, ensure_ascii=False, indent=1, sort_keys=False) + "\n"
+    cells = [[fmt(k, r[k]) for k, _h, _j in COLUMNS] for r in rows]
+    headers = [h for _k, h, _j in COLUMNS]
+    if form == "csv":
+        buf = io.StringIO()
+        w = csv.writer(buf, lineterminator="\n")
+        w.writerow(headers)
+        w.writerows(cells)
+        return buf.getvalue()
+    # Markdown: a pipe table, numbers right-aligned, then the summary lines
+    def esc(t: str) -> str:
+        return t.replace("|", "\\|")
+    out = ["| " + " | ".join(esc(h) for h in headers) + " |",
+           "|" + "|".join(":---" if j == "left" else "---:" for _k, _h, j in COLUMNS) + "|"]
+    for r, c in zip(rows, cells):
+        c = [f"**{esc(x)}**" if r["row"] == "total" and x else esc(x) for x in c]
+        out.append("| " + " | ".join(c) + " |")
+    out.append("")
+    out.extend(f"- {line}" for line in summary_lines(pv))
+    return "\n".join(out) + "\n"

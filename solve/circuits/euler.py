@@ -227,6 +227,19 @@ class _UnionFind:
         return root
 
 
+def least_penalty_pairing(tail, head, seg, forward, n_nodes: int, model: TurnModel) -> np.ndarray:
+    """The successor of every traversal under a least-penalty pairing at every node.
+
+    Each node pairs its arrivals with its departures at the least total turn
+    penalty, one node at a time, so the pairs may form several cycles. The first step of the turn-aware circuit; balanced traversals (as many
+    arrivals as departures at every node) are assumed.
+    """
+    tail, head = np.asarray(tail, np.int64), np.asarray(head, np.int64)
+    deg = np.bincount(tail, minlength=n_nodes)
+    pr = _Pairs(tail, head, np.asarray(seg, np.int64), np.asarray(forward, bool), n_nodes, deg, model)
+    return _best_pairing(pr, deg)
+
+
 def _splice(pr: _Pairs, succ: np.ndarray, head: np.ndarray, deg: np.ndarray) -> tuple[np.ndarray, int, int]:
     """Join the cycles of ``succ`` into one by successor swaps, cheapest first.
 

@@ -108,8 +108,3 @@ class TurnModel:
     def pair_seconds(self, arr_seg, arr_fwd, dep_seg, dep_fwd) -> np.ndarray:
         """Penalty seconds for arrays of (arriving, departing) traversals."""
         return self.seconds(self.classify(arr_seg, arr_fwd, dep_seg, dep_fwd))
-
-
-def turn_name(code: int) -> str:
-    """The name of a turn code, one of :data:`crewcut.solve.result.TURNS`."""
-    return TURNS[int(code)]

@@ -13,7 +13,7 @@ def snap_depot(net: Network, lon: float, lat: float, max_m: float, who: str = "d
     """The usable node nearest to (lon, lat); :class:`InputError` when farther than ``max_m``."""
     if not (-180 <= lon <= 180 and -90 <= lat <= 90):
         raise InputError(f"{who} {lon},{lat} is not a lon/lat position",
-                         "give longitude first, then latitude, in degrees, e.g. --depot -30.5,45.2")
+                         "give longitude first, then latitude, in degrees, e.g. -30.5,45.2")
     if not net.has_geometry:
         raise InputError(f"{who} is given as lon/lat but the network has no coordinates (CSV edge list)",
                          "give the depot as a node id (depot_node in the config)")

@@ -32,11 +32,6 @@ class TaskSet:
     def __len__(self) -> int:
         return int(self.seg.shape[0])
 
-    def subset(self, rows: np.ndarray) -> "TaskSet":
-        """The tasks at ``rows`` (an index or boolean array), in that order."""
-        return TaskSet(self.seg[rows], self.tail[rows], self.head[rows],
-                       self.directed[rows], self.minutes[rows], self.metres[rows])
-
 
 @dataclass(frozen=True)
 class DeadheadArcs:

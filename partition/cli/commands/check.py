@@ -22,7 +22,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args, ui) -> int:
-    from crewcut.cli.main import parse_lonlat
+    from crewcut.cli.args import parse_lonlat
 
     profile = load_profile(args.config)
     if args.depot:  # a malformed --depot is reported before any reading

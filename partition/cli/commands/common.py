@@ -33,7 +33,7 @@ def depot_from_args(args, net: Network, profile: Profile) -> tuple[int, str, Cre
 
     Returns the node, a description for the screen, and the crew it came from.
     """
-    from crewcut.cli.main import parse_lonlat
+    from crewcut.cli.args import parse_lonlat
 
     if getattr(args, "depot", None):
         lon, lat = parse_lonlat(args.depot)
@@ -95,7 +95,7 @@ def write_or_print(ui, out: str | None, text: str) -> int:
     """Write ``text`` atomically to ``out`` and say so, or to stdout when no file is given."""
     import sys
 
-    from crewcut.plans.planfile import atomic_write
+    from crewcut.files import atomic_write
 
     if out:
         atomic_write(out, text)

@@ -88,7 +88,7 @@ def run(args, ui) -> int:
     out = Path(args.out)
     if out.exists() and not out.is_dir():
         raise InputError(f"--out '{out}' is a file, not a folder", "give a folder for the demo's files")
-    towngen._validate(args.segments, args.seed)  # clear message before any work
+    towngen.check_town_args(args.segments, args.seed)  # clear message before any work
     t0 = time.perf_counter()
     town_path, config_path = towngen.write_town_and_config(out, args.segments, args.seed)
     ui.out.print(f"[bold]{towngen.TOWN_NAME}[/] (an invented town, seed {args.seed}): "
@@ -133,7 +133,7 @@ def _run_stage(stage: Stage, paths: dict[str, str], ui) -> tuple[str, float]:
             return f"skipped: needs {exc.name}, not in this version yet", time.perf_counter() - t0
         raise
     except InputError as exc:  # the demo's own input is generated: this is a bug, say where
-        raise InputError(f"demo stage '{' '.join(argv[:1])}': {exc.message}", exc.hint) from None
+        raise InputError(f"demo stage '{' '.join(argv[:1])}': {exc.message}", exc.hint, param=exc.param) from None
     seconds = time.perf_counter() - t0
     return ("done" if code == 0 else f"failed: exit status {code}"), seconds
 

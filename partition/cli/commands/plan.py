@@ -27,7 +27,7 @@ def run(args, ui) -> int:
     from crewcut.solve.profile import load_profile
     from crewcut.solve.readers import read_network
 
-    from crewcut.cli.main import parse_lonlat
+    from crewcut.cli.args import parse_lonlat
     from crewcut.fleet.crews import resolve_crews
     from crewcut.plans.planfile import write_plan
     from crewcut.fleet.planner import plan_fleet
@@ -50,7 +50,7 @@ def run(args, ui) -> int:
 def _print(ui, plan: dict, path: Path, seconds: float) -> None:
     # The workload table's caption already gives longest / mean, the bound, the gap
     # and the crews over their limit; add only what the table does not say.
-    from crewcut.reports.workload import workload_table
+    from crewcut.cli.tables import workload_table
 
     s = plan["summary"]
     ui.out.print(workload_table(plan))

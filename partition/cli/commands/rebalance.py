@@ -59,7 +59,7 @@ def run(args, ui) -> int:
     from crewcut.plans.planfile import read_plan, write_plan
     from crewcut.fleet.replan import rebalance_plan
     from crewcut.plans.verify import profile_of_plan
-    from crewcut.reports.workload import workload_table
+    from crewcut.cli.tables import workload_table
 
     plan_path = Path(args.plan)
     plan = read_plan(plan_path)
@@ -119,11 +119,13 @@ def _network_path(plan: dict, plan_path: Path, given: str | None) -> Path:
 def _add_crew(text: str) -> tuple[str, float, float]:
     from crewcut.solve.errors import InputError
 
-    from crewcut.cli.main import parse_lonlat
+    from crewcut.cli.args import parse_lonlat
 
     if "@" not in text:
         raise InputError(f"--add-crew '{text}' is not ID@LON,LAT", "e.g. --add-crew relief@-30.5,45.2")
     cid, where = text.rsplit("@", 1)
+    if not cid.strip():
+        raise InputError(f"--add-crew '{text}' has no crew id before the @", "e.g. --add-crew relief@-30.5,45.2")
     lon, lat = parse_lonlat(where, what=f"--add-crew {cid}")
     return cid, lon, lat
 

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 from crewcut.reports.htmlreport import report_html
-from crewcut.plans.planfile import atomic_write
+from crewcut.files import atomic_write
 from crewcut.plans.view import load
 
 NAME = "report"

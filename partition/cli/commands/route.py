@@ -48,7 +48,7 @@ def run(args, ui) -> int:
         raise InputError(f"--seed {args.seed} is negative", "give a whole number 0 or more")
     profile = load_profile(args.config)
     if args.depot:  # a malformed --depot is reported before any reading
-        from crewcut.cli.main import parse_lonlat
+        from crewcut.cli.args import parse_lonlat
         parse_lonlat(args.depot)
     out_dir = out_folder(args.out)
     net = read_network(args.network, profile)

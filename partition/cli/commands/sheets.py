@@ -6,13 +6,13 @@ from pathlib import Path
 
 from crewcut.solve.errors import InputError
 
-from crewcut.plans.planfile import atomic_write_many
+from crewcut.files import atomic_write_many
 from crewcut.plans.view import load
-from crewcut.reports.sheets import crew_sheets, html_document, slug, to_html_section, to_markdown, to_text
+from crewcut.reports.sheets import SHEET_FORMATS, sheet_files
 
 NAME = "sheets"
 HELP = "write route sheets for crews: the ordered streets with turns, headings, distances and elapsed time"
-FORMATS = ("txt", "md", "html")
+FORMATS = SHEET_FORMATS
 
 
 def add_arguments(p) -> None:
@@ -25,30 +25,10 @@ def add_arguments(p) -> None:
                    help="write files into DIR (sheet-CREW.txt/.md per crew, or sheets.html); default: stdout")
 
 
-def render(pv, crews, form: str) -> list[tuple[str, str]]:
-    """(file name, text) pairs; html gives one document for all the crews."""
-    sheets = crew_sheets(pv, crews)
-    if form == "html":
-        from crewcut.reports.svgmap import crew_colours
-        colours = crew_colours(pv)
-        body = "\n".join(to_html_section(s, colours[s.crew]) for s in sheets) or "<p>no crews selected</p>"
-        return [("sheets.html", html_document(f"Route sheets - {pv.title}", body))]
-    fn = to_markdown if form == "md" else to_text
-    files: dict[str, list[str]] = {}
-    used: dict[str, str] = {}
-    for s in sheets:
-        base = slug(s.crew)
-        while base in used and used[base] != s.crew:  # two ids with the same safe form
-            base += "_"
-        used[base] = s.crew
-        files.setdefault(f"sheet-{base}.{form}", []).append(fn(s))
-    return [(name, "\n".join(parts)) for name, parts in files.items()]
-
-
 def run(args, ui) -> int:
     pv = load(args.plan)
     crews = pv.select(args.crew)
-    files = render(pv, crews, args.format)  # everything rendered before anything is written
+    files = sheet_files(pv, crews, args.format)  # everything rendered before anything is written
     if not args.out:
         sys.stdout.write("\n".join(text for _n, text in files))
         return 0

@@ -1,13 +1,10 @@
-"""Small generated street networks and independent checks for the fleet-planning tests.
+"""Independent checkers: they read the plan file or the arrays, never the planner or the route engine.
 
-Networks are invented grids near Tallowmere (lon -30.5, lat 45.2) with jittered
-corners, some streets missing, one-way rows in alternating directions (so every
-street stays reachable both ways) and a mix of service kinds. They are built
-with the project's topology repair (:func:`crewcut.solve.network.repair.build_network`).
-
-The checks here do not use the planner: ``check_plan_independently`` walks the
-plan with networkx and plain counting; ``nx_lower_bound`` recomputes the min-max
-lower bound with networkx shortest paths (see its docstring for the sources).
+Sources: networkx's own algorithms (``is_eulerian``: balanced and connected;
+Dijkstra shortest paths; connected components); pyproj's geodesic azimuths
+(WGS84) for bearings; the trade's service rules (one pass per curb with traffic,
+both curbs of a one-way street in its direction); the min-max bound of Ahr and
+Reinelt (2006), see :func:`nx_lower_bound`. Each function's docstring says which.
 """
 from __future__ import annotations
 
@@ -16,56 +13,55 @@ import math
 import networkx as nx
 import numpy as np
 
-from crewcut.solve.network.model import RawLine
-from crewcut.solve.profile import Profile
-from crewcut.solve.network.repair import build_network
-
-ORIGIN = (-30.5, 45.2)
-STREET_WORDS = ("Tallow", "Mere", "Wick", "Candle", "Lantern", "Ember", "Flax", "Reed")
+from crewcut.solve.network.model import Network
 
 
-def grid_lines(cols: int, rows: int, seed: int, *, oneway_rows: bool = True, drop: float = 0.1,
-               none_share: float = 0.1, one_pass_share: float = 0.2, closed: tuple = ()) -> list[RawLine]:
-    rng = np.random.default_rng(seed)
-    sp = 0.0012
-    pts = {}
-    for r in range(rows):
-        for c in range(cols):
-            j = rng.uniform(-0.25, 0.25, 2) * sp
-            pts[r, c] = (ORIGIN[0] + (c - cols / 2) * sp + j[0], ORIGIN[1] + (r - rows / 2) * sp * 0.7 + j[1])
-    lines = []
-
-    def add(a, b, name, oneway=0, can_drop=True):
-        if can_drop and rng.random() < drop:
-            return
-        kind = rng.random()
-        service = "none" if kind < none_share else ("one_pass" if kind < none_share + one_pass_share else "both_sides")
-        sid = f"st-{len(lines)}"
-        coords = np.array([pts[a], pts[b]])
-        if oneway < 0:
-            coords = coords[::-1]
-        lines.append(RawLine(sid, coords, name=name, road_class="residential", oneway=int(oneway != 0),
-                             service=service, closed=sid in closed))
-
-    for r in range(rows):
-        # interior rows alternate one-way directions; outer rows and every column stay two-way
-        ow = 0
-        if oneway_rows and 0 < r < rows - 1:
-            ow = 1 if r % 2 else -1
-        for c in range(cols - 1):
-            add((r, c), (r, c + 1), f"{STREET_WORDS[r % len(STREET_WORDS)]} Row", ow, can_drop=ow == 0 and r not in (0, rows - 1))
-    for c in range(cols):
-        for r in range(rows - 1):
-            add((r, c), (r + 1, c), f"{STREET_WORDS[c % len(STREET_WORDS)]} Rise", 0, can_drop=c not in (0, cols - 1))
-    return lines
+def augmented_multigraph(tasks, arcs, aug, directed: bool = True):
+    """The oriented tasks plus the added arcs as a networkx multigraph."""
+    o = np.asarray(aug.orientation, bool)
+    t = np.concatenate([np.where(o, tasks.tail, tasks.head), arcs.tail[aug.arcs]])
+    h = np.concatenate([np.where(o, tasks.head, tasks.tail), arcs.head[aug.arcs]])
+    g = nx.MultiDiGraph() if directed else nx.MultiGraph()
+    g.add_edges_from(zip(t.tolist(), h.tolist()))
+    return g
 
 
-def grid_network(cols: int, rows: int, seed: int, profile: Profile | None = None, **kw):
-    profile = profile or Profile()
-    return build_network(grid_lines(cols, rows, seed, **kw), profile)
+def assert_valid(tasks, arcs, aug, depot: int) -> None:
+    """The invariant of every Eulerization: balanced, connected, contains the depot, legal arcs."""
+    assert aug.orientation.shape == (len(tasks),)
+    assert np.all(aug.orientation[tasks.directed]), "a directed task was flipped"
+    assert np.all((aug.arcs >= 0) & (aug.arcs < len(arcs)))
+    assert abs(aug.cost - float(arcs.minutes[aug.arcs].sum())) < 1e-6 * max(1.0, aug.cost)
+    assert aug.lower_bound <= aug.cost + 1e-9
+    if len(tasks) == 0:
+        return
+    g = augmented_multigraph(tasks, arcs, aug)
+    g.add_node(depot)
+    # networkx's own test: connected and every in-degree equals its out-degree
+    assert nx.is_eulerian(g), "augmented multigraph is not Eulerian (or not connected with the depot)"
 
 
-# ----------------------------------------------------------------------------- independent checks
+def assert_closed_walk(net: Network, tail, head, seg, forward, depot: int, ignore_oneway: bool = False) -> None:
+    """A closed walk from ``depot`` over existing, usable segments in legal directions.
+
+    Checked from the network arrays alone (independent of the circuit code), and
+    with networkx: the walk's multigraph must pass ``networkx.is_eulerian``.
+    """
+    tail, head, seg, forward = (np.asarray(a) for a in (tail, head, seg, forward))
+    assert tail.size > 0
+    assert tail[0] == depot and head[-1] == depot, "starts and ends at the depot"
+    assert (head[:-1] == tail[1:]).all(), "consecutive traversals share a node"
+    assert ((seg >= 0) & (seg < net.n_segments)).all(), "existing segments only"
+    assert not net.seg_closed[seg].any(), "no closed segment is driven"
+    su, sv = net.seg_u[seg], net.seg_v[seg]
+    assert np.where(forward, (tail == su) & (head == sv), (tail == sv) & (head == su)).all(), \
+        "each traversal runs along its segment"
+    assert ignore_oneway or forward[net.seg_oneway[seg]].all(), "one-way segments only in their legal direction"
+    g = nx.MultiDiGraph()
+    g.add_edges_from(zip(tail.tolist(), head.tolist()))
+    assert nx.is_eulerian(g)  # networkx's own check: balanced and strongly connected
+
+
 def passes_needed(seg: dict, ignore_oneway: bool) -> tuple[int, int, int]:
     """(forward, backward, either) passes of a plan segment from its service kind.
 
@@ -134,7 +130,7 @@ def check_plan_independently(plan: dict, whole_segments: bool = True) -> None:
             assert (sid in owner) == (f + b + e > 0), sid
 
 
-def _azimuth(p, q) -> float:
+def azimuth(p, q) -> float:
     """Compass bearing from lon/lat p to q, degrees (pyproj's geodesic, not crewcut.solve.network.model)."""
     from pyproj import Geod
 
@@ -167,7 +163,7 @@ def nx_turn_terms(plan: dict) -> dict:
             continue
         c = s["coords"]
         if c is not None:
-            start, end = _azimuth(c[0], c[1]), _azimuth(c[-2], c[-1])
+            start, end = azimuth(c[0], c[1]), azimuth(c[-2], c[-1])
             heading[s["id"], True] = (start, end)
             heading[s["id"], False] = ((end + 180.0) % 360.0, (start + 180.0) % 360.0)
         leaving.setdefault(s["from"], []).append((s["id"], True))
@@ -258,18 +254,6 @@ def nx_lower_bound(plan: dict) -> float:
     per_pass.sort()
     turns = sum(per_pass[:max(0, len(per_pass) - k)])
     return max((service + turns) / k, trip)
-
-
-def write_geojson(path, lines: list[RawLine]) -> None:
-    """Write RawLines as a GeoJSON FeatureCollection the project's reader takes."""
-    import json
-
-    feats = [{"type": "Feature", "id": ln.source_id,
-              "properties": {"id": ln.source_id, "name": ln.name, "class": ln.road_class, "oneway": bool(ln.oneway),
-                             "service": ln.service, "closed": bool(ln.closed)},
-              "geometry": {"type": "LineString", "coordinates": np.asarray(ln.coords).tolist()}} for ln in lines]
-    with open(path, "w", encoding="utf-8") as fh:
-        json.dump({"type": "FeatureCollection", "features": feats}, fh)
 
 
 def territory_connected(plan: dict, crew_index: int) -> bool:

@@ -1,74 +1,33 @@
 """Small, hand-made plan documents for the report tests (invented Tallowmere streets).
 
 The routes are built here without the project's own route engine, so that the
-report tests do not depend on it: a grid network near lon -30.5, lat 45.2 is cut
-into column bands, one per crew; each band (plus the street from the depot into
-it) is made Eulerian with networkx's ``eulerize`` (duplicating existing edges
-only) and walked with networkx's ``eulerian_circuit`` from the depot. The first
-traversal of a band street serves it, every other traversal is deadhead.
-Turns are classified from compass headings (straight within 30 degrees, U-turn
-from 150 degrees: common practice, no source). The plan is assembled with
-:func:`crewcut.plans.planfile.build_plan`, the same function the planners use.
+report tests do not depend on it: a grid network near lon -30.5, lat 45.2
+(:func:`helpers.nets.named_grid`) is cut into column bands, one per crew; each
+band (plus the street from the depot into it) is made Eulerian with networkx's
+``eulerize`` (duplicating existing edges only) and walked with networkx's
+``eulerian_circuit`` from the depot. The first traversal of a band street serves
+it, every other traversal is deadhead. Headings are pyproj's geodesic azimuths
+(:func:`helpers.checks.azimuth`); turns are classified from them (straight
+within 30 degrees, U-turn from 150 degrees: common practice, no source). The plan
+is assembled with :func:`crewcut.plans.planfile.build_plan`, the same function
+the planners use.
 """
 from __future__ import annotations
 
 import networkx as nx
 import numpy as np
-import pytest
 
-from crewcut.plans.planfile import CrewPlan, build_plan, write_plan
+from crewcut.plans.planfile import CrewPlan, build_plan
 from crewcut.solve.costs import deadhead_minutes, service_minutes
-from crewcut.solve.network.geodesy import geodesic_lengths, project
-from crewcut.solve.network.model import SERVICE_NONE, SERVICE_ONE_PASS, Network, _bearing
+from crewcut.solve.network.model import SERVICE_NONE, Network
 from crewcut.solve.profile import Profile
 from crewcut.solve.result import Route, RouteTotals, Traversal
 
-ORIGIN = (-30.5, 45.2)
-ROW_NAMES = ("Tallow Row", "Mere Street", "Candle Walk", "Wick Lane", "Lantern Way")
-COL_NAMES = ("Ash Rise", "Birch Rise", "", "Cedar Rise", "Dunlin Rise", "Elder Rise", "Fern Rise", "")
+from helpers.checks import azimuth
+from helpers.nets import named_grid
 
 
-def grid_network(cols: int = 6, rows: int = 4, spacing_deg: float = 0.0015, bend: bool = True) -> Network:
-    """A cols x rows grid of two-way one-pass streets; column streets 2 and 7 have no name.
-
-    The first row street gets a bend (an extra vertex) so that polylines with
-    more than two points are exercised. The top-right street needs no service.
-    """
-    lon0, lat0 = ORIGIN[0] - spacing_deg * (cols - 1) / 2, ORIGIN[1] - spacing_deg * (rows - 1) / 2
-    node = {}
-    lon, lat = [], []
-    for r in range(rows):
-        for c in range(cols):
-            node[(c, r)] = len(lon)
-            lon.append(lon0 + c * spacing_deg)
-            lat.append(lat0 + r * spacing_deg * 0.7)
-    u, v, names, coords = [], [], [], []
-    for r in range(rows):
-        for c in range(cols - 1):
-            a, b = node[(c, r)], node[(c + 1, r)]
-            pts = [[lon[a], lat[a]], [lon[b], lat[b]]]
-            if bend and r == 0:
-                pts.insert(1, [(lon[a] + lon[b]) / 2, lat[a] - spacing_deg * 0.1])
-            u.append(a), v.append(b), names.append(ROW_NAMES[r % len(ROW_NAMES)]), coords.append(np.array(pts))
-    for c in range(cols):
-        for r in range(rows - 1):
-            a, b = node[(c, r)], node[(c, r + 1)]
-            u.append(a), v.append(b), names.append(COL_NAMES[c % len(COL_NAMES)])
-            coords.append(np.array([[lon[a], lat[a]], [lon[b], lat[b]]]))
-    m = len(u)
-    service = np.full(m, SERVICE_ONE_PASS, np.int8)
-    service[(rows - 1) * (cols - 1) + cols - 2] = SERVICE_NONE  # last row street: drive-through only
-    lon_a, lat_a = np.array(lon), np.array(lat)
-    x, y = project(lon_a, lat_a, ORIGIN)
-    return Network(
-        node_lon=lon_a, node_lat=lat_a, node_x=x, node_y=y, node_label=[""] * len(lon),
-        seg_source=[f"tm-{i:03d}" for i in range(m)], seg_u=np.array(u, np.int64), seg_v=np.array(v, np.int64),
-        seg_length=geodesic_lengths(coords), seg_oneway=np.zeros(m, bool), seg_service=service,
-        seg_class=["residential"] * m, seg_name=names, seg_speed_kmh=np.full(m, np.nan),
-        seg_closed=np.zeros(m, bool), seg_coords=coords, has_geometry=True, origin=ORIGIN)
-
-
-def _turn(prev_end: float, next_start: float, same_seg_back: bool, right_hand: bool) -> str:
+def turn_kind(prev_end: float, next_start: float, same_seg_back: bool, right_hand: bool) -> str:
     if same_seg_back:
         return "u_turn"
     d = (next_start - prev_end + 180.0) % 360.0 - 180.0
@@ -85,8 +44,8 @@ def grid_routes(net: Network, profile: Profile, k: int) -> list[CrewPlan]:
     smin = service_minutes(net, profile)
     dmin = deadhead_minutes(net, profile)
     coords = net.seg_coords
-    heading_start = _bearing(np.array([c[0] for c in coords]), np.array([c[1] for c in coords]))
-    heading_end = _bearing(np.array([c[-2] for c in coords]), np.array([c[-1] for c in coords]))
+    heading_start = np.array([azimuth(c[0], c[1]) for c in coords])
+    heading_end = np.array([azimuth(c[-2], c[-1]) for c in coords])
     col_of = np.rint((net.node_lon - net.node_lon.min()) / (np.ptp(net.node_lon) / (cols - 1))).astype(int)
     band_of_node = np.minimum(col_of * k // cols, k - 1)
     crews = []
@@ -128,7 +87,7 @@ def grid_routes(net: Network, profile: Profile, k: int) -> list[CrewPlan]:
                 p = trav[-1]
                 pfwd = p.from_node == net.seg_u[p.segment]
                 pend = heading_end[p.segment] if pfwd else (heading_start[p.segment] + 180.0) % 360.0
-                kind = _turn(pend, start_h, p.segment == s and p.from_node == c, profile.traffic == "right")
+                kind = turn_kind(pend, start_h, p.segment == s and p.from_node == c, profile.traffic == "right")
             else:
                 kind = "start"
             tmin = profile.turn_penalty_s.get(kind, 0.0) / 60.0
@@ -145,7 +104,7 @@ def grid_routes(net: Network, profile: Profile, k: int) -> list[CrewPlan]:
 def make_plan(k: int = 3, cols: int = 6, rows: int = 4, traffic: str = "right") -> dict:
     """A k-crew plan document of the grid town (crew-A's shift limit is set low so it is over limit)."""
     profile = Profile(traffic=traffic, service_speed_kmh={"default": 6.0}, deadhead_speed_kmh={"default": 25.0})
-    net = grid_network(cols, rows)
+    net = named_grid(cols, rows)
     crews = grid_routes(net, profile, k)
     service_total = sum(sum(t.minutes for t in c.routes[0].traversals if t.service) for c in crews)
     shifts = [c.shift_min for c in crews]
@@ -153,14 +112,3 @@ def make_plan(k: int = 3, cols: int = 6, rows: int = 4, traffic: str = "right") 
     lb = service_total / k
     summary = {"lower_bound_min": lb, "gap": max(shifts) / lb - 1.0, "longest_shift_min": max(shifts)}
     return build_plan(net, profile, crews, source="tallowmere-grid (tests)", summary=summary)
-
-
-# Fixtures shared by the report tests (imported there by name).
-@pytest.fixture(scope="module")
-def plan():
-    return make_plan(k=3)
-
-
-@pytest.fixture()
-def plan_path(tmp_path, plan):
-    return str(write_plan(plan, tmp_path / "plan.json"))

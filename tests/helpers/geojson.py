@@ -1,9 +1,14 @@
-"""Small invented GeoJSON networks for reader, repair and check tests (Tallowmere area)."""
+"""Small invented GeoJSON networks for reader, repair and check tests (Tallowmere area).
+
+Positions are placed with pyproj's geodesic on WGS84 (``Geod.fwd``), so that a
+test can state a length in metres independently of the project's own geodesy.
+"""
 from __future__ import annotations
 
 import json
 from pathlib import Path
 
+import numpy as np
 from pyproj import Geod
 
 GEOD = Geod(ellps="WGS84")
@@ -42,3 +47,15 @@ def grid(nx: int = 3, ny: int = 3, spacing: float = 100.0, **props) -> dict:
 def write(path: Path, doc) -> Path:
     path.write_text(doc if isinstance(doc, str) else json.dumps(doc), encoding="utf-8")
     return path
+
+
+def write_geojson(path, lines) -> None:
+    """Write RawLines (crewcut.solve.network.model) as a GeoJSON FeatureCollection the project's reader takes."""
+    import json
+
+    feats = [{"type": "Feature", "id": ln.source_id,
+              "properties": {"id": ln.source_id, "name": ln.name, "class": ln.road_class, "oneway": bool(ln.oneway),
+                             "service": ln.service, "closed": bool(ln.closed)},
+              "geometry": {"type": "LineString", "coordinates": np.asarray(ln.coords).tolist()}} for ln in lines]
+    with open(path, "w", encoding="utf-8") as fh:
+        json.dump({"type": "FeatureCollection", "features": feats}, fh)

@@ -1,0 +1,26 @@
+"""Tables for the terminal (rich): the command line draws the library's plain rows here."""
+from __future__ import annotations
+
+from rich.table import Table
+from rich.text import Text
+
+from crewcut.plans.view import PlanView, view
+from crewcut.reports.workload import COLUMNS, fmt, summary_lines, workload_rows
+
+
+def workload_table(plan: dict) -> Table:
+    """The workload table as a rich Table (crews over their shift limit in bold red, marked '!')."""
+    pv = plan if isinstance(plan, PlanView) else view(plan)
+    rows = workload_rows(pv)
+    table = Table(title="Workload per crew", caption="\n".join(summary_lines(pv)), caption_justify="left",
+                  show_footer=False, header_style="bold")
+    for _key, header, justify in COLUMNS:
+        table.add_column(header, justify=justify)
+    for r in rows:
+        over = r["row"] == "crew" and r["over_limit_min"] > 0
+        cells = [fmt(k, r[k]) for k, _h, _j in COLUMNS]
+        if over:
+            cells[-1] += " !"
+        style = "bold red" if over else ("bold" if r["row"] == "total" else None)
+        table.add_row(*[Text(c) for c in cells], style=style, end_section=len(rows) > 1 and r is rows[-2])
+    return table
