@@ -67,17 +67,18 @@ def _quiet_stdout() -> None:
         pass
 
 
-def guarded(work: Callable[[], int | None], err_console, on_input_error: Callable[[InputError], str] | None = None
-            ) -> int:
+def guarded(work: Callable[[], int | None], err_console,
+            words: Callable[[InputError], tuple[str, str | None]] | None = None) -> int:
     """Run ``work`` and map every expected failure to its exit status, printing one message on ``err_console``.
 
-    ``on_input_error`` may rewrite an :class:`InputError`'s message for the command line (for example to
-    name the flag behind a library parameter).
+    ``words`` turns an :class:`InputError` into the message and hint the user reads (the command line
+    names the flag behind a library parameter).
     """
     try:
         return int(work() or 0)
     except InputError as exc:
-        say_error(err_console, on_input_error(exc) if on_input_error else exc.message, exc.hint)
+        message, hint = words(exc) if words else (exc.message, exc.hint)
+        say_error(err_console, message, hint or "")
         return EXIT_INPUT
     except KeyboardInterrupt:
         err_console.print("interrupted; nothing half-written was left behind", markup=False, highlight=False)

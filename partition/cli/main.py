@@ -1,7 +1,11 @@
-"""The crewcut command line: parse, call, print. Work happens in ``solve`` and ``partition``.
+"""The crewcut command line: parse, call, print. Work happens in ``crewcut.solve`` and the rest of ``crewcut``.
 
-Every sub-command lives in ``partition/cli/commands/<name>.py``. Bad input raises
-:class:`crewcut.solve.errors.InputError`; it is printed on stderr and the exit status is 2.
+Every sub-command lives in ``partition/cli/commands/<name>.py``. Failures are
+turned into one message and an exit status by :mod:`crewcut.cli.guard` (2 for bad
+input, 3 when the environment fails, 130 on Ctrl-C). The consoles interpret no
+markup and drop control characters from everything they print, so no street name,
+crew id or path can restyle the terminal. ``-v`` shows the library's log (stages,
+timings) on stderr; ``-q`` prints nothing but errors.
 """
 from __future__ import annotations
 
@@ -10,18 +14,35 @@ import importlib
 import os
 import sys
 
-from rich.console import Console
-from rich.markup import escape
+import logging
 
-from crewcut.solve.errors import InputError
+from rich.console import Console
 
 from crewcut.cli.args import glue_negative_lonlat
 from crewcut.cli.flags import error_words
+from crewcut.cli.guard import guarded
+from crewcut.reports.textsafety import terminal_text
 
 from crewcut import __version__
 
 # Sub-commands in the order the help lists them; modules missing here are skipped.
 COMMANDS = ("check", "route", "plan", "verify", "rebalance", "table", "sheets", "map", "report", "export", "demo")
+
+
+class SafeConsole(Console):
+    """A rich console that reads no markup and prints no control characters of the user's text.
+
+    Every string on its way to the screen (printed text, table cells, titles,
+    captions) passes through :meth:`render_str`; styles are given as rich styles,
+    never as markup inside a string.
+    """
+
+    def __init__(self, **kw) -> None:
+        super().__init__(markup=False, highlight=False, emoji=False, **kw)
+
+    def render_str(self, text: str, **kw):
+        kw["markup"] = False
+        return super().render_str(terminal_text(text), **kw)
 
 
 class UI:
@@ -31,8 +52,8 @@ class UI:
         self.quiet = quiet
         # Piped output (logs, files) gets room for the wide tables instead of rich's 80 columns.
         width = None if sys.stdout.isatty() or os.environ.get("COLUMNS") else 160
-        self.out = Console(quiet=quiet, highlight=False, width=width)
-        self.err = Console(stderr=True, highlight=False, soft_wrap=True)
+        self.out = SafeConsole(quiet=quiet, width=width)
+        self.err = SafeConsole(stderr=True, soft_wrap=True)
 
     def progress(self, *columns, **kw):
         from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
@@ -53,6 +74,8 @@ def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="crewcut", description="Plan street-coverage work for a fleet of crews.")
     parser.add_argument("--version", action="version", version=f"crewcut {__version__}")
     parser.add_argument("-q", "--quiet", action="store_true", help="print nothing but errors")
+    parser.add_argument("-v", "--verbose", action="count", default=0,
+                        help="show what the library does, stage by stage, on stderr (-vv: more)")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     for name in COMMANDS:
         try:
@@ -64,6 +87,8 @@ def build_parser() -> argparse.ArgumentParser:
         p = sub.add_parser(mod.NAME, help=mod.HELP, description=mod.HELP)
         p.add_argument("-q", "--quiet", action="store_true", default=argparse.SUPPRESS,
                        help="print nothing but errors")
+        p.add_argument("-v", "--verbose", action="count", default=argparse.SUPPRESS,
+                       help="show what the library does, stage by stage, on stderr (-vv: more)")
         mod.add_arguments(p)
         p.set_defaults(_run=mod.run)
     return parser
@@ -76,17 +101,30 @@ def main(argv: list[str] | None = None) -> int:
         parser.print_help()
         return 2
     ui = UI(quiet=getattr(args, "quiet", False))
-    try:
-        return int(args._run(args, ui) or 0)
-    except InputError as exc:
-        message, hint = error_words(exc)
-        ui.err.print(f"[bold red]error:[/] {escape(message)}", highlight=False)
-        if hint:
-            ui.err.print(f"  fix: {hint}", markup=False, highlight=False)
-        return 2
-    except KeyboardInterrupt:
-        ui.err.print("interrupted; nothing was written")
-        return 130
+    _log_to(ui, getattr(args, "verbose", 0))
+    return guarded(lambda: args._run(args, ui), ui.err, error_words)
+
+
+class _LogHandler(logging.Handler):
+    """The library's log records as plain lines on the error console."""
+
+    def __init__(self, console: Console) -> None:
+        super().__init__()
+        self.console = console
+
+    def emit(self, record: logging.LogRecord) -> None:
+        self.console.print(f"{record.levelname.lower()}: {record.getMessage()}", style="dim")
+
+
+def _log_to(ui: UI, verbose: int) -> None:
+    """The library logs under the name ``crewcut``; -q shows errors only, -v info, -vv debug."""
+    log = logging.getLogger("crewcut")
+    for h in [h for h in log.handlers if isinstance(h, _LogHandler)]:
+        log.removeHandler(h)
+    log.addHandler(_LogHandler(ui.err))
+    log.setLevel(logging.ERROR if ui.quiet else (logging.WARNING, logging.INFO)[min(verbose, 1)] if verbose < 2
+                 else logging.DEBUG)
+    log.propagate = False
 
 
 if __name__ == "__main__":

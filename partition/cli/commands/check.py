@@ -9,7 +9,7 @@ from crewcut.solve.network.diagnose import CheckReport, check_network
 from crewcut.solve.profile import load_profile
 from crewcut.solve.readers import read_network
 
-from crewcut.cli.commands.common import add_network_arguments, depot_from_args, measure_table
+from crewcut.cli.commands.common import add_network_arguments, depot_from_args, line, measure_table, styled
 
 NAME = "check"
 HELP = "load a street network, repair its topology and report what would stop planning"
@@ -37,7 +37,7 @@ def run(args, ui) -> int:
 
 def _print(ui, path, profile_name: str, depot_text: str, r: CheckReport) -> None:
     out = ui.out
-    out.print(f"[bold]{path}[/]  profile: {profile_name}")
+    out.print(line((path, "bold"), f"  profile: {profile_name}"))
     t = Table(title="Streets by road class", title_justify="left")
     for col in ("road class", "segments", "length (km)", "one-way (km)", "required passes", "to serve (km)"):
         t.add_column(col, justify="left" if col == "road class" else "right")
@@ -45,7 +45,7 @@ def _print(ui, path, profile_name: str, depot_text: str, r: CheckReport) -> None
         t.add_row(row.road_class or "(none)", f"{row.segments:,}", f"{row.km:,.2f}", f"{row.oneway_km:,.2f}",
                   f"{row.passes:,}", f"{row.required_km:,.2f}")
     t.add_section()
-    t.add_row("[bold]total[/]", f"{r.segments:,}", f"{r.km:,.2f}", f"{r.oneway_km:,.2f}", f"{r.passes:,}",
+    t.add_row(styled("total", "bold"), f"{r.segments:,}", f"{r.km:,.2f}", f"{r.oneway_km:,.2f}", f"{r.passes:,}",
               f"{r.required_km:,.2f}")
     out.print(t)
     s = measure_table("Network")
@@ -67,8 +67,9 @@ def _print(ui, path, profile_name: str, depot_text: str, r: CheckReport) -> None
         for col in ("severity", "feature", "problem", "fix"):
             p.add_column(col, overflow="fold")
         for f in sorted(r.findings, key=lambda f: f.severity != "error"):  # stable: errors first, input order
-            sev = "[bold red]error[/]" if f.severity == "error" else "[yellow]warning[/]"
+            sev = styled("error", "bold red") if f.severity == "error" else styled("warning", "yellow")
             p.add_row(sev, f.feature, f.message, f.hint, end_section=False)
         out.print(p)
-    verdict = "[bold green]plannable[/]" if r.plannable else "[bold red]not plannable[/]: fix the errors above"
-    out.print(f"Result: {verdict}")
+    verdict = (("plannable", "bold green"),) if r.plannable else (("not plannable", "bold red"),
+                                                                  ": fix the errors above")
+    out.print(line("Result: ", *verdict))

@@ -4,14 +4,38 @@ from __future__ import annotations
 import argparse
 from contextlib import contextmanager
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from crewcut.solve.network.depot import check_depot_node, snap_depot
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Crew, Profile
 
+if TYPE_CHECKING:
+    from rich.text import Text
+
 NETWORK_HELP = "street network: .geojson/.json, .osm, .osm.pbf/.pbf or .csv"
 CONFIG_HELP = "work profile (TOML); default: the shipped curb-sweeping profile"
+
+
+def styled(text, style: str = "") -> Text:
+    """User text as a rich Text in ``style``: no markup read, control characters dropped.
+
+    The consoles read no markup (:class:`crewcut.cli.main.SafeConsole`); this is how a
+    command makes part of a line or a table cell bold or coloured.
+    """
+    from rich.text import Text
+
+    from crewcut.reports.textsafety import terminal_text
+
+    return Text(terminal_text(str(text)), style=style)
+
+
+def line(*parts) -> Text:
+    """One printed line from pieces: plain strings, or ``(text, style)`` pairs."""
+    from rich.text import Text
+
+    return Text.assemble(*(styled(*p) if isinstance(p, tuple) else styled(p) for p in parts))
 
 
 def add_network_arguments(parser: argparse.ArgumentParser, config_help: str = CONFIG_HELP) -> None:

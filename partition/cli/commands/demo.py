@@ -13,10 +13,11 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable
 
-from rich.markup import escape
 from rich.table import Table
 
 from crewcut.solve.errors import InputError
+
+from crewcut.cli.commands.common import line, styled
 
 NAME = "demo"
 HELP = "write an invented demo town (Tallowmere) and its config, then check, route, plan and report on it"
@@ -91,9 +92,8 @@ def run(args, ui) -> int:
     towngen.check_town_args(args.segments, args.seed)  # clear message before any work
     t0 = time.perf_counter()
     town_path, config_path = towngen.write_town_and_config(out, args.segments, args.seed)
-    ui.out.print(f"[bold]{towngen.TOWN_NAME}[/] (an invented town, seed {args.seed}): "
-                 f"{escape(str(town_path))} and {escape(str(config_path))} "
-                 f"written in {time.perf_counter() - t0:.1f} s", soft_wrap=True)
+    ui.out.print(line((towngen.TOWN_NAME, "bold"), f" (an invented town, seed {args.seed}): {town_path} and "
+                      f"{config_path} written in {time.perf_counter() - t0:.1f} s"), soft_wrap=True)
     paths = _paths(out)
     done: list[tuple[str, str, float]] = []
     if not getattr(args, "only_town", False):
@@ -147,10 +147,10 @@ def _summary(ui, done: list[tuple[str, str, float]], paths: dict[str, str]) -> N
         for name, status, seconds in done:
             t.add_row(name, status, f"{seconds:.1f}")
         t.add_section()
-        t.add_row("[bold]total[/]", "", f"{sum(s for _, _, s in done):.1f}")
+        t.add_row(styled("total", "bold"), "", f"{sum(s for _, _, s in done):.1f}")
         ui.out.print(t)
     written = [paths["town"], paths["config"]] + [paths[k] for s in STAGES for k in s.makes]
-    ui.out.print("[bold]outputs:[/]")
+    ui.out.print(styled("outputs:", "bold"))
     for p in dict.fromkeys(written):
         if Path(p).exists():
-            ui.out.print(f"  {escape(p)}", soft_wrap=True)  # whole paths, easy to copy
+            ui.out.print(f"  {p}", soft_wrap=True)  # whole paths, easy to copy
