@@ -1,4 +1,5 @@
-"""Reading plan files: damaged files are refused up front by every command that reads one."""
+"""Reading and writing plan files: damaged files are refused up front by every command that reads one, and a
+plan read back from its file is the same plan, written again the same bytes."""
 from __future__ import annotations
 
 import copy
@@ -7,7 +8,7 @@ import json
 import pytest
 
 from crewcut.cli.main import main
-from crewcut.plans.planfile import read_plan, write_plan
+from crewcut.plans.planfile import plan_from_dict, plan_to_dict, plan_to_json, read_plan, write_plan
 from planfactory import make_plan
 from crewcut.solve.errors import InputError
 
@@ -30,7 +31,7 @@ def _damage(plan: dict, how: str) -> dict:
 @pytest.mark.parametrize("how", ["territory_text", "traversal_without_minutes", "segment_not_object",
                                  "crews_not_list", "bad_mode"])
 def test_damaged_plan_is_refused_by_every_reader(tmp_path, capsys, how):
-    plan = make_plan(k=3)
+    plan = plan_to_dict(make_plan(k=3))
     path = tmp_path / "plan.json"
     path.write_text(json.dumps(_damage(plan, how)))
     before = path.read_bytes()
@@ -46,9 +47,40 @@ def test_damaged_plan_is_refused_by_every_reader(tmp_path, capsys, how):
 
 
 def test_written_plan_reads_back_unchanged(tmp_path):
+    # the file is standard JSON (RFC 8259, read here by Python's own json module, not by crewcut): the
+    # document it holds is the one crewcut meant to write, and reading it gives the same typed plan
     plan = make_plan(k=2)
     path = write_plan(plan, tmp_path / "plan.json")
-    assert read_plan(path) == json.loads(path.read_text())
+    assert json.loads(path.read_text(encoding="utf-8")) == plan_to_dict(plan)
+    assert read_plan(path) == plan
+
+
+def _round_trip(path) -> None:
+    """Read a plan file and write it again: the same bytes (same input, same bytes out)."""
+    data = path.read_bytes()
+    again = write_plan(read_plan(path), path.with_name("again.json"))
+    assert again.read_bytes() == data
+    assert plan_to_json(plan_from_dict(json.loads(data))).encode("utf-8") == data
+
+
+def test_round_trip_of_a_generated_plan_gives_the_same_bytes(tmp_path):
+    """A plan made by 'crewcut plan' on a generated invented town, and its replan with a crew absent."""
+    from crewcut.demo.towngen import write_town
+
+    write_town(tmp_path / "town.geojson", 300, 3)
+    assert main(["--quiet", "plan", str(tmp_path / "town.geojson"), "--crews", "3", "--depot=-30.5,45.2",
+                 "--out", str(tmp_path / "p"), "--workers", "1"]) == 0
+    _round_trip(tmp_path / "p" / "plan.json")
+    assert main(["--quiet", "rebalance", str(tmp_path / "p" / "plan.json"), "--absent", "crew-2", "--defer",
+                 "--out", str(tmp_path / "r"), "--workers", "1"]) == 0
+    _round_trip(tmp_path / "r" / "plan.json")
+
+
+def test_round_trip_of_the_demo_plans_gives_the_same_bytes(tmp_path):
+    """The demo's one-crew and fleet plans of the invented town Tallowmere."""
+    assert main(["--quiet", "demo", "--out", str(tmp_path / "demo")]) == 0
+    for name in ("one-crew", "fleet"):
+        _round_trip(tmp_path / "demo" / name / "plan.json")
 
 
 def test_atomic_write_many_all_or_none(tmp_path):
