@@ -8,7 +8,7 @@ only) and walked with networkx's ``eulerian_circuit`` from the depot. The first
 traversal of a band street serves it, every other traversal is deadhead.
 Turns are classified from compass headings (straight within 30 degrees, U-turn
 from 150 degrees: common practice, no source). The plan is assembled with
-:func:`crewcut.plans.planfile.plan_of`, the same function the planners use.
+:func:`crewcut.plans.planfile.build_plan`, the same function the planners use.
 """
 from __future__ import annotations
 
@@ -18,7 +18,7 @@ import pytest
 
 from crewcut.fleet.assemble import fleet_summary
 from crewcut.plans.model import CrewPlan, Plan
-from crewcut.plans.planfile import plan_of, write_plan
+from crewcut.plans.planfile import build_plan, write_plan
 from crewcut.solve.costs import deadhead_minutes, service_minutes
 from crewcut.solve.network.geodesy import geodesic_lengths, project
 from crewcut.solve.network.model import SERVICE_NONE, SERVICE_ONE_PASS, Network, _bearing
@@ -154,7 +154,7 @@ def make_plan(k: int = 3, cols: int = 6, rows: int = 4, traffic: str = "right") 
     # mean service time per crew is a lower bound on the longest shift (the longest is at least the mean)
     lb = service_total / k
     summary = fleet_summary(crews, lb, method="test: networkx Euler circuits per column band")
-    return plan_of(net, profile, crews, source="tallowmere-grid (tests)", summary=summary)
+    return build_plan(net, profile, crews, source="tallowmere-grid (tests)", summary=summary)
 
 
 # Fixtures shared by the report tests (imported there by name).

@@ -17,7 +17,7 @@ from fleetnets import check_plan_independently, grid_network, nx_lower_bound
 from crewcut.fleet.baseline import route_first_split
 from crewcut.fleet.crews import resolve_crews
 from crewcut.plans.model import CrewPlan
-from crewcut.plans.planfile import plan_of, plan_to_dict
+from crewcut.plans.planfile import build_plan, plan_to_dict
 from crewcut.fleet.planner import plan_fleet
 from crewcut.solve.profile import Crew, Profile
 
@@ -34,7 +34,7 @@ def test_baseline_valid_and_compared(seed, k):
     pieces = route_first_split(net, profile, depot, k, giant=giant)
     assert len(pieces) == k
     plans = [CrewPlan(Crew(f"piece-{j + 1}", 1440.0, None, depot), (), (r,)) for j, r in enumerate(pieces)]
-    doc = plan_to_dict(plan_of(net, profile, plans))
+    doc = plan_to_dict(build_plan(net, profile, plans))
     check_plan_independently(doc, whole_segments=False)
     longest_base = max(r.totals.total_min for r in pieces)
     assert longest_base >= nx_lower_bound(doc) - 1e-6

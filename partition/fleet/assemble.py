@@ -5,7 +5,7 @@ kept) and evens out the shifts with :func:`crewcut.fleet.balancer.balance`;
 :func:`finish_plan` computes the min-max lower bound for the crews at work
 (:func:`crewcut.solve.postman.bounds.fleet_lower_bound`, after Ahr and Reinelt
 2006), the summary (:func:`fleet_summary`) and assembles the
-:class:`crewcut.plans.model.Plan` (:func:`crewcut.plans.planfile.plan_of`).
+:class:`crewcut.plans.model.Plan` (:func:`crewcut.plans.planfile.build_plan`).
 """
 from __future__ import annotations
 
@@ -22,7 +22,7 @@ from crewcut.fleet.executor import RouteJob, Router
 from crewcut.fleet.streets import StreetGraph
 from crewcut.fleet.territories import territories_of
 from crewcut.plans.model import BalanceOutcome, CrewPlan, DeferredSegment, FleetSummary, History, OverLimit, Plan
-from crewcut.plans.planfile import plan_of
+from crewcut.plans.planfile import build_plan
 
 ProgressFn = Callable[[str, float, float], None]
 
@@ -87,7 +87,7 @@ def finish_plan(net: Network, profile: Profile, crews: list[Crew], state: FleetS
     plans = [CrewPlan(crew=c, territory=tuple(terr[i].tolist()), routes=(state.routes[i],))
              for i, c in enumerate(crews)]
     summary = fleet_summary(plans, lb, bal, method=method, deferred=deferred)
-    return plan_of(net, profile, plans, source=source, options=options, summary=summary, history=history,
+    return build_plan(net, profile, plans, source=source, options=options, summary=summary, history=history,
                    deferred=deferred)
 
 

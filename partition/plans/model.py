@@ -6,7 +6,7 @@ decimals, crews' depots as node ids. So a plan made in memory and the same plan
 read back from its file are equal, and every consumer (``verify``, the replan,
 the reports) gets the same answer from either. JSON appears only at the file's
 edge (:mod:`crewcut.plans.planfile`); producers build a plan with
-:func:`crewcut.plans.planfile.plan_of`, which quantises it as the file would.
+:func:`crewcut.plans.planfile.build_plan`, which quantises it as the file would.
 
 The engine's :class:`crewcut.solve.result.Route` is kept as it is: a crew plan
 holds its routes as ``Route`` values (their ``stats`` are not part of a plan and
@@ -207,7 +207,7 @@ class FleetSummary:
     """Figures about a fleet plan (``plan`` and ``rebalance``).
 
     ``gap``: longest shift over the lower bound, minus one. ``crews_needed_estimate``:
-    see :func:`crewcut.fleet.summary.crews_needed`. ``deferred_segments`` and
+    see :func:`crewcut.fleet.assemble.crews_needed`. ``deferred_segments`` and
     ``deferred_min`` are set when a replan deferred streets to another day.
     """
 

@@ -32,7 +32,7 @@ from crewcut.plans.model import (FORMAT, VERSION, CrewPlan, DeferredSegment, Fle
                                  RouteSummary)
 
 __all__ = ["FIX", "atomic_write", "atomic_write_many", "network_section", "plan_digest", "plan_from_dict",
-           "plan_of", "plan_to_dict", "plan_to_json", "read_plan", "write_plan"]
+           "build_plan", "plan_to_dict", "plan_to_json", "read_plan", "write_plan"]
 
 
 def network_section(net: Network, profile: Profile, source: str = "") -> dict:
@@ -67,7 +67,7 @@ def network_section(net: Network, profile: Profile, source: str = "") -> dict:
             "origin": list(net.origin), "nodes": nodes, "segments": segs}
 
 
-def plan_of(net: Network, profile: Profile, crews: list[CrewPlan], *, source: str = "",
+def build_plan(net: Network, profile: Profile, crews: list[CrewPlan], *, source: str = "",
             options: Mapping[str, Any] | None = None, summary: FleetSummary | RouteSummary | None = None,
             history: History | None = None, deferred: list[DeferredSegment] | None = None) -> Plan:
     """Assemble a :class:`Plan` from a network, a profile and the crews' plans, quantised as the file records it.

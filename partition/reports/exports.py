@@ -22,8 +22,8 @@ import io
 import json
 from xml.sax.saxutils import escape
 
-from crewcut.plans.model import route_id
-from crewcut.plans.view import PlanView
+from crewcut.plans.model import Plan, route_id
+from crewcut.plans.view import PlanView, view
 from crewcut.solve.result import Route
 
 FORMATS = ("geojson", "gpx", "csv")
@@ -41,7 +41,8 @@ def _totals(route: Route) -> dict:
             "traversals": len(steps)}
 
 
-def to_geojson(pv: PlanView) -> str:
+def to_geojson(pv: Plan | PlanView) -> str:
+    pv = view(pv)
     pv.need_geometry()
     feats = []
     for c in pv.crews:
@@ -63,13 +64,14 @@ def to_geojson(pv: PlanView) -> str:
     return json.dumps(doc, ensure_ascii=False, separators=(",", ":")) + "\n"
 
 
-def to_gpx(pv: PlanView) -> str:
+def to_gpx(pv: Plan | PlanView) -> str:
     """GPX 1.1: each crew's depot as a waypoint and each route as a track.
 
     A track, not a GPX route: navigation devices re-plan the way between route
     points and could cut through streets the crew must serve; a track is
     followed as drawn.
     """
+    pv = view(pv)
     pv.need_geometry()
     out = ['<?xml version="1.0" encoding="UTF-8"?>',
            '<gpx version="1.1" creator="crewcut" xmlns="http://www.topografix.com/GPX/1/1" '
@@ -96,7 +98,8 @@ def to_gpx(pv: PlanView) -> str:
     return "\n".join(out) + "\n"
 
 
-def to_csv(pv: PlanView) -> str:
+def to_csv(pv: Plan | PlanView) -> str:
+    pv = view(pv)
     crews_of: dict[int, list[str]] = {}
     for c in pv.crews:
         for s in c.territory:
@@ -115,7 +118,7 @@ def to_csv(pv: PlanView) -> str:
     return buf.getvalue()
 
 
-def export(pv: PlanView, form: str) -> str:
+def export(pv: Plan | PlanView, form: str) -> str:
     if form not in FORMATS:
         raise ValueError(f"unknown export format {form!r}; allowed: {', '.join(FORMATS)}")
     return {"geojson": to_geojson, "gpx": to_gpx, "csv": to_csv}[form](pv)

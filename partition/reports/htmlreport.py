@@ -9,7 +9,8 @@ from __future__ import annotations
 
 import html
 
-from crewcut.plans.view import PlanView
+from crewcut.plans.model import Plan
+from crewcut.plans.view import PlanView, view
 from crewcut.reports.sheets import crew_sheets, html_document, to_html_section
 from crewcut.reports.svgmap import crew_colours, route_svg, territory_svg
 from crewcut.reports.workload import COLUMNS, fmt, summary_lines, workload_rows
@@ -58,8 +59,9 @@ def _load_table(pv: PlanView) -> str:
             f'<ul class="notes">{notes}</ul>')
 
 
-def report_html(pv: PlanView) -> str:
+def report_html(pv: Plan | PlanView) -> str:
     """The whole report as one HTML document (a string; same plan, same bytes)."""
+    pv = view(pv)
     e = html.escape
     colours = crew_colours(pv)
     n_req = sum(1 for s in pv.segments if s.passes.total > 0)

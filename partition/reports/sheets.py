@@ -19,8 +19,8 @@ import math
 import re
 from dataclasses import dataclass, field
 
-from crewcut.plans.model import CrewPlan, route_id
-from crewcut.plans.view import PlanView
+from crewcut.plans.model import CrewPlan, Plan, route_id
+from crewcut.plans.view import PlanView, view
 from crewcut.solve.result import Route
 
 UNNAMED = "unnamed street"
@@ -89,11 +89,12 @@ def _heading(pv: PlanView, route: Route, idx: list[int]) -> str:
     return compass(initial_bearing(a, b))
 
 
-def route_sheet(pv: PlanView, crew: CrewPlan, route: Route, name: str | None = None) -> Sheet:
+def route_sheet(pv: Plan | PlanView, crew: CrewPlan, route: Route, name: str | None = None) -> Sheet:
     """The sheet of one route of one crew (see the module notes for the merging rule).
 
     ``name``: the route's id on the sheet (default: its id in the plan file, by position).
     """
+    pv = view(pv)
     steps = list(route.traversals)
     rname = name if name is not None else route_id(next((i for i, r in enumerate(crew.routes) if r is route), 0))
     lines: list[SheetLine] = []
@@ -127,7 +128,9 @@ def route_sheet(pv: PlanView, crew: CrewPlan, route: Route, name: str | None = N
                  deadhead_km=sum(s.metres for s in steps if not s.service) / 1000.0)
 
 
-def crew_sheets(pv: PlanView, crews: list[CrewPlan] | tuple[CrewPlan, ...]) -> list[Sheet]:
+def crew_sheets(pv: Plan | PlanView, crews: list[CrewPlan] | tuple[CrewPlan, ...]) -> list[Sheet]:
+    """The sheets of every route of ``crews``, crew by crew."""
+    pv = view(pv)
     return [route_sheet(pv, c, r, route_id(i)) for c in crews for i, r in enumerate(c.routes)]
 
 

@@ -24,8 +24,8 @@ import math
 
 import numpy as np
 
-from crewcut.plans.model import CrewPlan
-from crewcut.plans.view import PlanView
+from crewcut.plans.model import CrewPlan, Plan
+from crewcut.plans.view import PlanView, view
 
 PALETTE = ("#2255aa", "#ff7711", "#66bbff", "#884411", "#9900ff", "#ddaa77", "#774477", "#8877ff")
 DASHES = ("", "10 4", "3 3", "12 3 3 3")  # added to repeated colours beyond len(PALETTE) crews
@@ -39,12 +39,12 @@ LEGEND_W = 230
 MARGIN = 24
 
 
-def crew_colours(pv: PlanView) -> dict[str, str]:
+def crew_colours(pv: Plan | PlanView) -> dict[str, str]:
     """Crew id -> colour, by the crew's position in the plan."""
     return {c.id: PALETTE[i % len(PALETTE)] for i, c in enumerate(pv.crews)}
 
 
-def crew_dash(pv: PlanView) -> dict[str, str]:
+def crew_dash(pv: Plan | PlanView) -> dict[str, str]:
     return {c.id: DASHES[(i // len(PALETTE)) % len(DASHES)] for i, c in enumerate(pv.crews)}
 
 
@@ -165,8 +165,9 @@ def _legend_row(y: float, swatch: str, text: str) -> str:
             f'<text x="34" y="10" font-size="12" fill="{INK}">{html.escape(text)}</text></g>')
 
 
-def territory_svg(pv: PlanView, standalone: bool = True) -> str:
+def territory_svg(pv: Plan | PlanView, standalone: bool = True) -> str:
     """All crews' territories in their colours, depots marked, a legend with crew ids and shift hours."""
+    pv = view(pv)
     fr = _Frame(pv)
     colours, dashes = crew_colours(pv), crew_dash(pv)
     owner: dict[int, str] = {}
@@ -205,8 +206,9 @@ def territory_svg(pv: PlanView, standalone: bool = True) -> str:
     return _svg(WIDTH + LEGEND_W, height, body, f"Territories - {len(pv.crews)} crews", standalone)
 
 
-def route_svg(pv: PlanView, crew: CrewPlan, standalone: bool = True) -> str:
+def route_svg(pv: Plan | PlanView, crew: CrewPlan, standalone: bool = True) -> str:
     """One crew's routes: service in the crew colour with arrows, deadhead thin, dashed and grey."""
+    pv = view(pv)
     used = sorted({int(s) for s in crew.territory}
                   | {st.segment for r in crew.routes for st in r.traversals})
     fr = _Frame(pv, fit=used)  # zoomed to the crew's own streets

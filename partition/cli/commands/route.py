@@ -14,7 +14,7 @@ from crewcut.solve.readers import read_network
 from crewcut.solve.route import plan_route
 
 from crewcut.plans.model import CrewPlan, RouteSummary
-from crewcut.plans.planfile import plan_of, write_plan
+from crewcut.plans.planfile import build_plan, write_plan
 from crewcut.cli.commands.common import add_network_arguments, depot_from_args, measure_table, out_folder
 
 NAME = "route"
@@ -66,7 +66,7 @@ def run(args, ui) -> int:
                            gap=route.gap, exact=route.exact, method=route.method, u_turns=route.totals.u_turns,
                            across_turns=route.totals.across_turns, plain_u_turns=st.get("plain_u_turns"),
                            plain_across_turns=st.get("plain_across_turns"))
-    plan = plan_of(net, profile, [crew], source=str(args.network), summary=summary,
+    plan = build_plan(net, profile, [crew], source=str(args.network), summary=summary,
                    options={"command": "route", "depot_node": depot, "seed": args.seed, "turn_aware": not args.plain})
     path = write_plan(plan, out_dir / "plan.json")
     _print(ui, args.network, profile.name, depot_text, route, path)
