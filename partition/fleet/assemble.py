@@ -9,7 +9,7 @@ kept) and evens out the shifts with :func:`crewcut.fleet.balancer.balance`;
 """
 from __future__ import annotations
 
-from typing import Any, Callable, Mapping
+from typing import Callable, Mapping
 
 import numpy as np
 
@@ -21,7 +21,8 @@ from crewcut.fleet.balancer import BalanceReport, FleetState, balance
 from crewcut.fleet.executor import RouteJob, Router
 from crewcut.fleet.streets import StreetGraph
 from crewcut.fleet.territories import territories_of
-from crewcut.plans.model import BalanceOutcome, CrewPlan, DeferredSegment, FleetSummary, History, OverLimit, Plan
+from crewcut.plans.model import (BalanceOutcome, CrewPlan, DeferredSegment, FleetSummary, History, OverLimit, Plan,
+                                 RunOptions)
 from crewcut.plans.planfile import build_plan
 
 ProgressFn = Callable[[str, float, float], None]
@@ -67,7 +68,7 @@ def route_and_balance(router: Router, sg: StreetGraph, eligible: np.ndarray, cre
 
 
 def finish_plan(net: Network, profile: Profile, crews: list[Crew], state: FleetState, bal: BalanceReport | None, *,
-                options: Mapping[str, Any], source: str, method: str = FRESH_METHOD, history: History | None = None,
+                options: RunOptions, source: str, method: str = FRESH_METHOD, history: History | None = None,
                 deferred: list[DeferredSegment] | None = None, progress: ProgressFn | None = None) -> Plan:
     """The lower bound for the crews at work, the summary and the plan.
 

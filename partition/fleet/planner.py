@@ -39,7 +39,7 @@ from crewcut.fleet.executor import LocalRouter, Router, check_workers
 from crewcut.fleet.seeding import seed_territories
 from crewcut.fleet.streets import build_street_graph, depot_travel, round_trips
 from crewcut.fleet.territories import BorderTurns, describe_segment, grow_territories, polish_borders, smooth_boundaries
-from crewcut.plans.model import Plan
+from crewcut.plans.model import BalanceLimits, Plan, RunOptions, recorded_crew
 
 ProgressFn = Callable[[str, float, float], None]
 
@@ -98,11 +98,10 @@ def plan_fleet(net: Network, profile: Profile, crews: list[Crew], *, seed: int =
     finally:
         if own_router:
             router.close()
-    options = {"seed": int(seed), "crews": [{"id": c.id, "depot_node": int(c.depot_node),
-                                             "shift_limit_min": float(c.shift_limit_min)} for c in crews],
-               "balance": {"tolerance": float(tolerance), "max_iterations": int(max_iterations),
-                           "time_limit_s": None if time_limit_s is None else float(time_limit_s)},
-               "route_time_limit_s": float(route_time_limit_s)}
+    options = RunOptions(seed=int(seed), crews=tuple(recorded_crew(c) for c in crews),
+                         balance=BalanceLimits(float(tolerance), int(max_iterations),
+                                               None if time_limit_s is None else float(time_limit_s)),
+                         route_time_limit_s=float(route_time_limit_s))
     return finish_plan(net, profile, crews, state, bal, options=options, source=source, progress=progress)
 
 

@@ -77,6 +77,7 @@ with the segments that differ named.
 """
 from __future__ import annotations
 
+import dataclasses
 from typing import Callable
 
 import numpy as np
@@ -93,7 +94,7 @@ from crewcut.fleet.executor import LocalRouter, RouteJob, Router, check_workers
 from crewcut.fleet.handover import BAND, grow_extra, grow_pool, pool_quotas, release_pieces, transfers
 from crewcut.fleet.streets import StreetGraph, build_street_graph, depot_travel, round_trips
 from crewcut.fleet.territories import DEADHEAD_ALLOWANCE, attach_leftovers, territories_of
-from crewcut.plans.model import Change, CrewPlan, DeferredSegment, History, Plan, thaw
+from crewcut.plans.model import Change, CrewPlan, DeferredSegment, History, Plan, ReplanLimits, recorded_crew
 from crewcut.plans.planfile import plan_digest
 from crewcut.plans.verify import profile_of_plan
 
@@ -138,7 +139,7 @@ def replan(plan: Plan, net: Network, changes: Changes, *, profile: Profile | Non
     report = progress or (lambda *a: None)
     profile = profile or profile_of_plan(plan)
     if route_time_limit_s is None:
-        recorded = plan.settings.route_time_limit_s
+        recorded = plan.settings.options.route_time_limit_s
         route_time_limit_s = 10.0 if recorded is None else recorded
     closed = resolve_closures(plan, changes.closed)
     today, added = network_of_the_day(plan, net, profile, closed, changes.opened, name=network_name)
@@ -213,15 +214,11 @@ def replan(plan: Plan, net: Network, changes: Changes, *, profile: Profile | Non
         if own_router:
             router.close()
 
-    options = {k_: v for k_, v in thaw(plan.settings.options).items()}
-    options.update({
-        "seed": int(seed),
-        "crews": [{"id": c.id, "depot_node": int(c.depot_node), "shift_limit_min": float(c.shift_limit_min)}
-                  for c in crews],
-        "rebalance": {"stability": float(stability), "overflow": overflow, "tolerance": float(tolerance),
-                      "time_limit_s": None if time_limit_s is None else float(time_limit_s),
-                      "max_iterations": int(max_iterations)},
-        "route_time_limit_s": float(route_time_limit_s)})
+    options = dataclasses.replace(  # the parent's options, with the replan's own
+        plan.settings.options, seed=int(seed), crews=tuple(recorded_crew(c) for c in crews),
+        rebalance=ReplanLimits(float(stability), overflow, float(tolerance),
+                               None if time_limit_s is None else float(time_limit_s), int(max_iterations)),
+        route_time_limit_s=float(route_time_limit_s))
     history = _history(plan, parent, crews, changes, closed, added, today, stability, overflow)
     source = plan.network.source if source is None else source
     return finish_plan(today, profile, crews, state, bal, options=options, source=source, method=REPLAN_METHOD,

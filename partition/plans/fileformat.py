@@ -20,9 +20,10 @@ from crewcut.solve.errors import InputError
 from crewcut.solve.profile import Crew, Profile
 from crewcut.solve.result import Route, RouteTotals, Traversal
 
-from crewcut.plans.model import (CHANGE_FIELDS, FORMAT, VERSION, BalanceOutcome, Change, CrewPlan, DeferredSegment,
-                                 FleetSummary, History, NodeRecord, OverLimit, Plan, PlanNetwork, PlanSettings,
-                                 RouteSummary, SegmentPasses, SegmentRecord, freeze, route_id, thaw)
+from crewcut.plans.model import (CHANGE_FIELDS, FORMAT, VERSION, BalanceLimits, BalanceOutcome, Change, CrewPlan,
+                                 DeferredSegment, FleetSummary, History, NodeRecord, OverLimit, Plan, PlanNetwork,
+                                 PlanSettings, ReplanLimits, RouteSummary, RunOptions, SegmentPasses, SegmentRecord,
+                                 route_id)
 
 FIX = "re-plan, or restore the file as crewcut wrote it"
 _TOTALS = ("service_km", "service_min", "deadhead_km", "deadhead_min", "turn_min", "total_min", "u_turns",
@@ -129,13 +130,38 @@ def _deferred_dict(d: DeferredSegment) -> dict:
             "priority": d.priority, "crew": d.crew, "work_min": d.work_min, "length_m": d.length_m}
 
 
+# The key order of the run options: a replan keeps its parent's keys in place and appends its own,
+# so the order depends on the lineage: a one-crew plan's (command), a fleet plan's (balance), or neither.
+_OPTION_ORDER = {
+    "route": ("command", "depot_node", "seed", "turn_aware", "crews", "rebalance", "route_time_limit_s"),
+    "fleet": ("seed", "crews", "balance", "route_time_limit_s", "rebalance"),
+    "other": ("seed", "crews", "rebalance", "route_time_limit_s"),
+}
+
+
+def options_dict(o: RunOptions) -> dict:
+    """The run options as the file records them (only those recorded, in the lineage's key order)."""
+    lineage = "route" if o.command is not None else ("fleet" if o.balance is not None else "other")
+    out = {}
+    for key in _OPTION_ORDER[lineage]:
+        v = getattr(o, key)
+        if v is None:
+            continue
+        if key == "crews":
+            v = [{"id": c.id, "depot_node": c.depot_node, "shift_limit_min": c.shift_limit_min} for c in v]
+        elif key in ("balance", "rebalance"):
+            v = dataclasses.asdict(v)
+        out[key] = v
+    return out
+
+
 def plan_to_dict(plan: Plan) -> dict:
     """The plan file's document (plain dicts and lists, fixed key order, rounded numbers)."""
     nw = plan.network
     doc = {
         "format": FORMAT,
         "version": VERSION,
-        "settings": {"profile": plan.settings.profile.to_dict(), **thaw(plan.settings.options)},
+        "settings": {"profile": plan.settings.profile.to_dict(), **options_dict(plan.settings.options)},
         "network": {"fingerprint": nw.fingerprint, "source": nw.source, "has_geometry": nw.has_geometry,
                     "origin": list(nw.origin), "nodes": [_node_dict(n) for n in nw.nodes],
                     "segments": [_segment_dict(s) for s in nw.segments]},
@@ -295,11 +321,26 @@ def _network(nw: dict) -> PlanNetwork:
                        tuple(_segment(s) for s in nw["segments"]))
 
 
+def _options(rec: dict) -> RunOptions:
+    known = {f.name for f in dataclasses.fields(RunOptions)}
+    unknown = sorted(k for k in rec if k not in known)
+    if unknown:
+        raise InputError(f"settings: unknown run option(s) {', '.join(repr(k) for k in unknown)}")
+    kw = dict(rec)
+    if kw.get("crews") is not None:
+        kw["crews"] = tuple(Crew(c["id"], c["shift_limit_min"], None, c["depot_node"]) for c in kw["crews"])
+    if kw.get("balance") is not None:
+        kw["balance"] = BalanceLimits(**kw["balance"])
+    if kw.get("rebalance") is not None:
+        kw["rebalance"] = ReplanLimits(**kw["rebalance"])
+    return RunOptions(**kw)
+
+
 def _settings(rec: dict) -> PlanSettings:
     names = {f.name for f in dataclasses.fields(Profile)}
     prof = {k: (dict(v) if isinstance(v, dict) else v) for k, v in rec.get("profile", {}).items() if k in names}
     return PlanSettings(dataclasses.replace(Profile(), **prof),
-                        freeze({k: v for k, v in rec.items() if k != "profile"}))
+                        _options({k: v for k, v in rec.items() if k != "profile"}))
 
 
 def _summary(rec: dict) -> FleetSummary | RouteSummary | None:

@@ -15,9 +15,7 @@ are empty). Route ids in the file are ``route-1``, ``route-2``, ... by position.
 from __future__ import annotations
 
 import dataclasses
-from dataclasses import dataclass, field
-from types import MappingProxyType
-from typing import Any, Mapping
+from dataclasses import dataclass
 
 from crewcut.solve.profile import Crew, Profile
 from crewcut.solve.result import Route
@@ -92,6 +90,11 @@ class PlanNetwork:
 
 
 # ------------------------------------------------------------------ settings
+def recorded_crew(crew: Crew) -> Crew:
+    """The crew as a plan records it: id, depot node and shift limit in minutes (no lon/lat depot)."""
+    return Crew(crew.id, float(crew.shift_limit_min), None, None if crew.depot_node is None else int(crew.depot_node))
+
+
 def recorded_profile(profile: Profile) -> Profile:
     """The profile as a plan records it: its recorded fields (``Profile.to_dict``) on the built-in defaults.
 
@@ -100,46 +103,52 @@ def recorded_profile(profile: Profile) -> Profile:
     return dataclasses.replace(Profile(), **profile.to_dict())
 
 
-def freeze(value: Any) -> Any:
-    """A JSON value made read-only: objects become read-only mappings, arrays tuples."""
-    if isinstance(value, Mapping):
-        return MappingProxyType({str(k): freeze(v) for k, v in value.items()})
-    if isinstance(value, (list, tuple)):
-        return tuple(freeze(v) for v in value)
-    return value
+@dataclass(frozen=True)
+class BalanceLimits:
+    """The balancer's stops in a fresh plan: tolerance, iteration limit, wall-clock limit (None: none)."""
+
+    tolerance: float
+    max_iterations: int
+    time_limit_s: float | None
 
 
-def thaw(value: Any) -> Any:
-    """The inverse of :func:`freeze`: plain dicts and lists, ready for JSON."""
-    if isinstance(value, Mapping):
-        return {k: thaw(v) for k, v in value.items()}
-    if isinstance(value, tuple):
-        return [thaw(v) for v in value]
-    return value
+@dataclass(frozen=True)
+class ReplanLimits:
+    """A replan's own settings: stability weight, overflow mode, and the balancer's stops."""
+
+    stability: float
+    overflow: str | None
+    tolerance: float
+    time_limit_s: float | None
+    max_iterations: int
+
+
+@dataclass(frozen=True)
+class RunOptions:
+    """The options of the command that made a plan (None: not recorded by that command).
+
+    ``plan`` records ``seed``, ``crews`` (each with its depot node and shift limit),
+    ``balance`` and ``route_time_limit_s``; ``route`` records ``command``,
+    ``depot_node``, ``seed`` and ``turn_aware``; a replan keeps its parent's options
+    and sets ``seed``, ``crews``, ``rebalance`` and ``route_time_limit_s``.
+    """
+
+    seed: int | None = None
+    crews: tuple[Crew, ...] | None = None
+    balance: BalanceLimits | None = None
+    route_time_limit_s: float | None = None
+    rebalance: ReplanLimits | None = None
+    command: str | None = None
+    depot_node: int | None = None
+    turn_aware: bool | None = None
 
 
 @dataclass(frozen=True)
 class PlanSettings:
-    """What a plan was made with: the work profile, and the run options of the command that made it.
-
-    ``options`` is a read-only mapping because its content varies by producer:
-    ``plan`` records seed, crews, balance limits and the route time limit;
-    ``route`` its command, depot and turn mode; a replan carries its parent's
-    options forward and adds its own (``rebalance``), in the file's key order.
-    """
+    """What a plan was made with: the work profile (:func:`recorded_profile`) and the run options."""
 
     profile: Profile
-    options: Mapping[str, Any] = field(default_factory=lambda: MappingProxyType({}))
-
-    @property
-    def seed(self) -> int | None:
-        v = self.options.get("seed")
-        return int(v) if isinstance(v, int) and not isinstance(v, bool) else None
-
-    @property
-    def route_time_limit_s(self) -> float | None:
-        v = self.options.get("route_time_limit_s")
-        return float(v) if isinstance(v, (int, float)) and not isinstance(v, bool) else None
+    options: RunOptions = RunOptions()
 
 
 # ------------------------------------------------------------------ crews

@@ -19,17 +19,16 @@ import json
 import os
 import tempfile
 from pathlib import Path
-from typing import Any, Mapping
 
 from crewcut.solve.costs import Passes, deadhead_minutes, required_passes, service_minutes
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_LABELS, Network
 from crewcut.solve.profile import Profile
 
-from crewcut.plans.fileformat import (FIX, crew_section, dumps, history_dict, plan_from_dict, plan_to_dict, rnd,
-                                      summary_dict)
+from crewcut.plans.fileformat import (FIX, crew_section, dumps, history_dict, options_dict, plan_from_dict,
+                                      plan_to_dict, rnd, summary_dict)
 from crewcut.plans.model import (FORMAT, VERSION, CrewPlan, DeferredSegment, FleetSummary, History, Plan,
-                                 RouteSummary)
+                                 RouteSummary, RunOptions)
 
 __all__ = ["FIX", "atomic_write", "atomic_write_many", "network_section", "plan_digest", "plan_from_dict",
            "build_plan", "plan_to_dict", "plan_to_json", "read_plan", "write_plan"]
@@ -68,7 +67,7 @@ def network_section(net: Network, profile: Profile, source: str = "") -> dict:
 
 
 def build_plan(net: Network, profile: Profile, crews: list[CrewPlan], *, source: str = "",
-            options: Mapping[str, Any] | None = None, summary: FleetSummary | RouteSummary | None = None,
+            options: RunOptions | None = None, summary: FleetSummary | RouteSummary | None = None,
             history: History | None = None, deferred: list[DeferredSegment] | None = None) -> Plan:
     """Assemble a :class:`Plan` from a network, a profile and the crews' plans, quantised as the file records it.
 
@@ -77,7 +76,7 @@ def build_plan(net: Network, profile: Profile, crews: list[CrewPlan], *, source:
     net, profile: the network the plan is made on and the work profile (recorded in the settings).
     crews: each crew with its territory and routes (the engine's routes, unrounded).
     source: the network file, recorded in the plan.
-    options: the run options recorded beside the profile (see :class:`crewcut.plans.model.PlanSettings`).
+    options: the run options recorded beside the profile (:class:`crewcut.plans.model.RunOptions`).
     summary, history, deferred: the plan's summary (unrounded), history (default: a fresh plan) and defer list.
 
     Returns the plan with every number rounded as the file rounds it, so that it
@@ -86,7 +85,7 @@ def build_plan(net: Network, profile: Profile, crews: list[CrewPlan], *, source:
     doc = {
         "format": FORMAT,
         "version": VERSION,
-        "settings": {"profile": profile.to_dict(), **dict(options or {})},
+        "settings": {"profile": profile.to_dict(), **options_dict(options or RunOptions())},
         "network": network_section(net, profile, source),
         "crews": [crew_section(c) for c in crews],
         "summary": summary_dict(summary),

@@ -13,7 +13,7 @@ from crewcut.solve.profile import Crew, load_profile
 from crewcut.solve.readers import read_network
 from crewcut.solve.route import plan_route
 
-from crewcut.plans.model import CrewPlan, RouteSummary
+from crewcut.plans.model import CrewPlan, RouteSummary, RunOptions
 from crewcut.plans.planfile import build_plan, write_plan
 from crewcut.cli.commands.common import add_network_arguments, depot_from_args, measure_table, out_folder
 
@@ -67,7 +67,7 @@ def run(args, ui) -> int:
                            across_turns=route.totals.across_turns, plain_u_turns=st.get("plain_u_turns"),
                            plain_across_turns=st.get("plain_across_turns"))
     plan = build_plan(net, profile, [crew], source=str(args.network), summary=summary,
-                   options={"command": "route", "depot_node": depot, "seed": args.seed, "turn_aware": not args.plain})
+                   options=RunOptions(command="route", depot_node=depot, seed=args.seed, turn_aware=not args.plain))
     path = write_plan(plan, out_dir / "plan.json")
     _print(ui, args.network, profile.name, depot_text, route, path)
     return 0
