@@ -25,11 +25,20 @@ def _damage(plan: dict, how: str) -> dict:
         p["crews"] = {"a": 1}
     elif how == "bad_mode":
         p["crews"][0]["routes"][0]["traversals"][0]["mode"] = "sweep"
+    elif how == "unknown_option":
+        p["settings"]["sweep_twice"] = True
+    elif how == "bad_traffic":
+        p["settings"]["profile"]["traffic"] = "middle"
+    elif how == "total_not_number":
+        p["crews"][2]["routes"][0]["totals"]["total_min"] = "long"
+    elif how == "summary_unknown":
+        p["summary"] = {"longest_shift_h": 7.5}
     return p
 
 
 @pytest.mark.parametrize("how", ["territory_text", "traversal_without_minutes", "segment_not_object",
-                                 "crews_not_list", "bad_mode"])
+                                 "crews_not_list", "bad_mode", "unknown_option", "bad_traffic",
+                                 "total_not_number", "summary_unknown"])
 def test_damaged_plan_is_refused_by_every_reader(tmp_path, capsys, how):
     plan = plan_to_dict(make_plan(k=3))
     path = tmp_path / "plan.json"
@@ -64,16 +73,21 @@ def _round_trip(path) -> None:
 
 
 def test_round_trip_of_a_generated_plan_gives_the_same_bytes(tmp_path):
-    """A plan made by 'crewcut plan' on a generated invented town, and its replan with a crew absent."""
+    """Plans made by 'crewcut plan' and 'crewcut route' on a generated invented town, and their replans."""
     from crewcut.demo.towngen import write_town
 
-    write_town(tmp_path / "town.geojson", 300, 3)
-    assert main(["--quiet", "plan", str(tmp_path / "town.geojson"), "--crews", "3", "--depot=-30.5,45.2",
+    town = str(write_town(tmp_path / "town.geojson", 300, 3))
+    assert main(["--quiet", "plan", town, "--crews", "3", "--depot=-30.5,45.2",
                  "--out", str(tmp_path / "p"), "--workers", "1"]) == 0
     _round_trip(tmp_path / "p" / "plan.json")
     assert main(["--quiet", "rebalance", str(tmp_path / "p" / "plan.json"), "--absent", "crew-2", "--defer",
                  "--out", str(tmp_path / "r"), "--workers", "1"]) == 0
     _round_trip(tmp_path / "r" / "plan.json")
+    assert main(["--quiet", "route", town, "--depot=-30.5,45.2", "--out", str(tmp_path / "one")]) == 0
+    _round_trip(tmp_path / "one" / "plan.json")
+    assert main(["--quiet", "rebalance", str(tmp_path / "one" / "plan.json"), "--add-crew", "relief@-30.503,45.201",
+                 "--overtime", "--out", str(tmp_path / "one-r"), "--workers", "1"]) == 0
+    _round_trip(tmp_path / "one-r" / "plan.json")
 
 
 def test_round_trip_of_the_demo_plans_gives_the_same_bytes(tmp_path):
