@@ -72,7 +72,7 @@ def main() -> None:
                 rows.append((net.n_segments, k, wall, s.longest_min / s.lower_bound_min,
                              s.longest_over_mean, s.deadhead_pct, s.longest_min / base_longest,
                              base_wall, *_territorial(net, ours), *_territorial(net, base),
-                             s["balance"]["stop"], s["balance"]["moves_kept"], s["balance"]["trials"]))
+                             s.balance.stop, s.balance.moves_kept, s.balance.trials))
                 print(_fmt(rows[-1]), flush=True)
     print()
     print(_header())
