@@ -8,7 +8,7 @@ town's two yards (crewcut.demo.towngen.town_depots), with the shipped curb-sweep
 profile. Sweeping all of a 20,000-segment town takes 12 crews some 60 hours
 each, so the shift limit is a week (10,080 min, a weekly cycle) and the work
 fits. Then, side by side, each case is rebalanced from that plan
-(crewcut.fleet.replan.rebalance_plan, default settings):
+(crewcut.fleet.replan.replan, default settings):
 
 * each crew absent in turn (how many neighbouring territories the absent one
   has decides how far its work must travel), and once more with stability 0
