@@ -35,7 +35,6 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 from crewcut.fleet.baseline import route_first_split  # noqa: E402
 from crewcut.fleet.crews import resolve_crews  # noqa: E402
-from crewcut.plans.planfile import route_from_section  # noqa: E402
 from crewcut.fleet.planner import plan_fleet  # noqa: E402
 from crewcut.solve.profile import builtin_profile  # noqa: E402
 from crewcut.solve.readers import read_network  # noqa: E402
@@ -63,17 +62,17 @@ def main() -> None:
                 t0 = time.perf_counter()
                 plan = plan_fleet(net, profile, crews, seed=a.seed, workers=a.workers, time_limit_s=a.time_limit)
                 wall = time.perf_counter() - t0
-                s = plan["summary"]
+                s = plan.summary
                 t1 = time.perf_counter()
-                giant = plan_route(net, profile, crews[0].depot, None, seed=a.seed)
-                base = route_first_split(net, profile, crews[0].depot, k, giant=giant)
+                giant = plan_route(net, profile, crews[0].depot_node, None, seed=a.seed)
+                base = route_first_split(net, profile, crews[0].depot_node, k, giant=giant)
                 base_wall = time.perf_counter() - t1
                 base_longest = max(r.totals.total_min for r in base)
-                ours = [route_from_section(r, c["depot_node"]) for c in plan["crews"] for r in c["routes"]]
-                rows.append((net.n_segments, k, wall, s["longest_min"] / s["lower_bound_min"],
-                             s["longest_over_mean"], s["deadhead_pct"], s["longest_min"] / base_longest,
+                ours = [r for c in plan.crews for r in c.routes]
+                rows.append((net.n_segments, k, wall, s.longest_min / s.lower_bound_min,
+                             s.longest_over_mean, s.deadhead_pct, s.longest_min / base_longest,
                              base_wall, *_territorial(net, ours), *_territorial(net, base),
-                             s["balance"]["stop"], s["balance"]["moves_kept"], s["balance"]["trials"]))
+                             s.balance.stop, s.balance.moves_kept, s.balance.trials))
                 print(_fmt(rows[-1]), flush=True)
     print()
     print(_header())

@@ -8,7 +8,7 @@ town's two yards (crewcut.demo.towngen.town_depots), with the shipped curb-sweep
 profile. Sweeping all of a 20,000-segment town takes 12 crews some 60 hours
 each, so the shift limit is a week (10,080 min, a weekly cycle) and the work
 fits. Then, side by side, each case is rebalanced from that plan
-(crewcut.fleet.replan.rebalance_plan, default settings):
+(crewcut.fleet.replan.replan, default settings):
 
 * each crew absent in turn (how many neighbouring territories the absent one
   has decides how far its work must travel), and once more with stability 0
@@ -32,7 +32,6 @@ from __future__ import annotations
 
 import argparse
 import dataclasses
-import json
 import sys
 import tempfile
 import time
@@ -42,11 +41,13 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from crewcut.fleet.crews import FleetCrew  # noqa: E402
+from crewcut.fleet.changes import Changes  # noqa: E402
 from crewcut.fleet.planner import plan_fleet  # noqa: E402
-from crewcut.fleet.replan import rebalance_plan  # noqa: E402
+from crewcut.fleet.replan import replan  # noqa: E402
+from crewcut.plans.planfile import plan_to_dict  # noqa: E402
+from crewcut.reports.changes import change_report  # noqa: E402
 from crewcut.fleet.streets import build_street_graph, depot_travel, round_trips  # noqa: E402
-from crewcut.solve.profile import builtin_profile  # noqa: E402
+from crewcut.solve.profile import Crew, builtin_profile  # noqa: E402
 from crewcut.solve.readers import read_network  # noqa: E402
 from crewcut.demo.towngen import dumps_town, generate_town, town_depots  # noqa: E402
 
@@ -96,10 +97,10 @@ def main() -> None:
         path.write_text(dumps_town(town), encoding="utf-8")
         net = read_network(path, profile)
     yards = [net.nearest_node(lon, lat)[0] for _, (lon, lat) in town_depots(town)]
-    crews = [FleetCrew(f"crew-{i + 1:02d}", yards[i % 2], WEEK_MIN) for i in range(a.crews)]
+    crews = [Crew(f"crew-{i + 1:02d}", WEEK_MIN, None, yards[i % 2]) for i in range(a.crews)]
     t0 = time.perf_counter()
-    plan = plan_fleet(net, profile, crews, seed=a.seed, workers=a.workers, time_limit_s=a.time_limit)
-    plan = json.loads(json.dumps(plan))  # as read back from a file
+    typed = plan_fleet(net, profile, crews, seed=a.seed, workers=a.workers, time_limit_s=a.time_limit)
+    plan = plan_to_dict(typed)  # the file's document, for the map measures below
     s = plan["summary"]
     print(f"town: {net.n_segments:,} segments; plan for {a.crews} crews in {time.perf_counter() - t0:.1f} s, "
           f"longest/mean {s['longest_over_mean']:.3f}, longest/LB {s['longest_min'] / s['lower_bound_min']:.3f}",
@@ -114,18 +115,20 @@ def main() -> None:
         (f"absent {mid}, stability 0", {"absent": [mid], "stability": 0.0}),
         (f"absent {mid}, stability 5", {"absent": [mid], "stability": 5.0}),
         ("two crews absent", {"absent": [ids[1], mid]}),
-        ("one extra crew", {"add_crews": [("extra-1", downtown[0], downtown[1])],
-                            "shift_limits": {"extra-1": WEEK_MIN}}),
-        (f"{len(closed)} segments closed (1 %)", {"close": closed}),
+        ("one extra crew", {"added_crews": (Crew("extra-1", WEEK_MIN, (downtown[0], downtown[1])),)}),
+        (f"{len(closed)} segments closed (1 %)", {"closed": tuple(closed)}),
     ]
     extra = {} if a.stability is None else {"stability": a.stability}
     one = []
     rows = []
     for name, kw in cases:
         t0 = time.perf_counter()
-        new, rep = rebalance_plan(plan, net, seed=a.seed, workers=a.workers, **{**extra, **kw})
+        day = {key: tuple(v) if key == "absent" else v for key, v in kw.items() if key != "stability"}
+        weight = {"stability": kw["stability"]} if "stability" in kw else extra
+        new = replan(typed, net, Changes(**day), seed=a.seed, workers=a.workers, **weight)
+        rep = dataclasses.asdict(change_report(typed, new))
         wall = time.perf_counter() - t0
-        ns = new["summary"]
+        ns = plan_to_dict(new)["summary"]
         absent = sum(sizes[c] for c in kw.get("absent", []))
         nbrs = len(_neighbours(plan, kw["absent"])) if kw.get("absent") else None
         least = _least_ratio(plan, kw["absent"]) if kw.get("absent") else float("nan")

@@ -17,19 +17,22 @@ from helpers.checks import check_plan_independently, nx_lower_bound, territory_c
 from helpers.nets import repaired_grid
 from crewcut.fleet.crews import resolve_crews
 from crewcut.fleet.planner import plan_fleet
+from crewcut.plans.planfile import plan_to_dict
 from crewcut.plans.verify import check_plan
 from crewcut.solve.profile import Crew, Profile
 
 
 def _plan(net, profile, crews, **kw):
+    """The plan, and its file's document (what the independent checkers read)."""
     kw.setdefault("workers", 1)
     kw.setdefault("time_limit_s", 20.0)
-    return plan_fleet(net, profile, crews, **kw)
+    typed = plan_fleet(net, profile, crews, **kw)
+    assert check_plan(typed, net, profile) == []
+    return plan_to_dict(typed)
 
 
 def _check(plan, net, profile):
     check_plan_independently(plan)
-    assert check_plan(plan, net, profile) == []
     for i in range(len(plan["crews"])):
         assert territory_connected(plan, i), plan["crews"][i]["id"]
     s = plan["summary"]
@@ -58,7 +61,7 @@ def test_several_depots_and_limits():
     plan = _plan(net, profile, crews)
     _check(plan, net, profile)
     by_id = {c["id"]: c for c in plan["crews"]}
-    assert {c["depot_node"] for c in plan["crews"]} == {c.depot for c in crews}
+    assert {c["depot_node"] for c in plan["crews"]} == {c.depot_node for c in crews}
     # the half-day crew is balanced on its share of its own limit, so it carries less
     assert by_id["half-day"]["shift_min"] < min(by_id["west"]["shift_min"], by_id["east"]["shift_min"])
 

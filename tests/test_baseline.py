@@ -17,9 +17,10 @@ from helpers.checks import check_plan_independently, nx_lower_bound
 from helpers.nets import repaired_grid
 from crewcut.fleet.baseline import route_first_split
 from crewcut.fleet.crews import resolve_crews
-from crewcut.plans.planfile import CrewPlan, build_plan
+from crewcut.plans.model import CrewPlan
+from crewcut.plans.planfile import build_plan, plan_to_dict
 from crewcut.fleet.planner import plan_fleet
-from crewcut.solve.profile import Profile
+from crewcut.solve.profile import Crew, Profile
 
 
 @pytest.mark.parametrize("seed,k", [(1, 2), (2, 3), (3, 4), (4, 3)])
@@ -29,13 +30,12 @@ def test_baseline_valid_and_compared(seed, k):
     profile = Profile(shift_limit_min=1440.0)
     net = repaired_grid(9, 6, seed)
     crews = resolve_crews(net, profile, k=k, depot_lonlat=(-30.5, 45.2))
-    depot = crews[0].depot
+    depot = crews[0].depot_node
     giant = plan_route(net, profile, depot, None, seed=seed)
     pieces = route_first_split(net, profile, depot, k, giant=giant)
     assert len(pieces) == k
-    plans = [CrewPlan(id=f"piece-{j + 1}", depot_node=depot, shift_limit_min=1440.0, territory=[], routes=[r])
-             for j, r in enumerate(pieces)]
-    doc = build_plan(net, profile, plans)
+    plans = [CrewPlan(Crew(f"piece-{j + 1}", 1440.0, None, depot), (), (r,)) for j, r in enumerate(pieces)]
+    doc = plan_to_dict(build_plan(net, profile, plans))
     check_plan_independently(doc, whole_segments=False)
     longest_base = max(r.totals.total_min for r in pieces)
     assert longest_base >= nx_lower_bound(doc) - 1e-6
@@ -54,8 +54,8 @@ def test_baseline_valid_and_compared(seed, k):
     cost = np.array([t.minutes + t.turn_minutes for t in giant.traversals])
     total = cost.sum()
     ours = plan_fleet(net, profile, crews, seed=seed, workers=1)
-    ratio = ours["summary"]["longest_min"] / longest_base
-    print(f"\nseed {seed} k {k}: ours {ours['summary']['longest_min']:.1f} min, "
+    ratio = ours.summary.longest_min / longest_base
+    print(f"\nseed {seed} k {k}: ours {ours.summary.longest_min:.1f} min, "
           f"route-first baseline {longest_base:.1f} min, ratio {ratio:.3f}")
     c = _c_max(net, profile, depot)
     assert longest_base <= (total - 2 * c) / k + cost.max() + 4 * c + 1e-6

@@ -13,7 +13,7 @@ from pyproj import Geod
 from shapely.geometry import shape
 
 from crewcut.cli.main import main
-from crewcut.plans.planfile import write_plan
+from crewcut.plans.planfile import plan_from_dict, plan_to_dict, write_plan
 from helpers.plans import make_plan
 
 GEOD = Geod(ellps="WGS84")
@@ -21,9 +21,10 @@ GEOD = Geod(ellps="WGS84")
 
 @pytest.fixture(scope="module", params=["test-factory", "crewcut-plan"])
 def plan(request, tmp_path_factory):
-    """A hand-made plan, and a plan made by the project's own planner on a small generated town."""
+    """A hand-made plan, and a plan made by the project's own planner on a small generated town (as the file's
+    document: the records the exports must show)."""
     if request.param == "test-factory":
-        return make_plan(k=3)
+        return plan_to_dict(make_plan(k=3))
     pytest.importorskip("crewcut.solve.postman.eulerize", reason="the route engine (crewcut.solve.postman.eulerize) is not in this tree yet")
     from crewcut.demo.towngen import write_town
 
@@ -36,7 +37,7 @@ def plan(request, tmp_path_factory):
 
 @pytest.fixture()
 def plan_path(tmp_path, plan):
-    return str(write_plan(plan, tmp_path / "plan.json"))
+    return str(write_plan(plan_from_dict(plan), tmp_path / "plan.json"))
 
 
 def _export(plan_path, form, capsys):
@@ -171,7 +172,7 @@ def test_bad_input_exit_2_nothing_written_input_untouched(tmp_path, plan_path, c
 ])
 def test_hand_edited_plan_is_a_clear_error(tmp_path, spoil, named, capsys):
     # common practice, no source: a damaged plan file is refused with a message, not a traceback
-    p = make_plan(k=2)
+    p = plan_to_dict(make_plan(k=2))
     spoil(p)
     path = tmp_path / "plan.json"
     path.write_text(json.dumps(p))

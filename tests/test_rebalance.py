@@ -303,7 +303,7 @@ def test_defer_list_lowest_priority_first(tmp_path, capsys):
     assert code == 0, err
     # ...and a deferred street that a crew also holds is a violation
     bad = json.loads(json.dumps(new))
-    bad["deferred"].append({"segment": bad["crews"][0]["territory"][0], "crew": bad["crews"][0]["id"]})
+    bad["deferred"].append(dict(bad["deferred"][0], segment=bad["crews"][0]["territory"][0], crew=bad["crews"][0]["id"]))
     (tmp_path / "bad.json").write_text(json.dumps(bad))
     code, _, err = _run(capsys, "verify", tmp_path / "bad.json", town, "--config", cfg)
     assert code == 2 and "deferred" in err

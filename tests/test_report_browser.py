@@ -36,10 +36,10 @@ def test_report_is_self_contained_and_printable(report):
     assert set(re.findall(r"https?://[^\s\"'<>]+", page)) == {"http://www.w3.org/2000/svg"}
     # printing: a page per crew, colours kept
     assert "@media print" in page and "@page" in page and "print-color-adjust: exact" in page
-    assert page.count('<div class="crewpage"') == len(plan["crews"])
-    assert "Workload per crew" in page and page.count("<svg") == 1 + len(plan["crews"])
-    for c in plan["crews"]:
-        assert f"Route sheet &ndash; {c['id']}" in page
+    assert page.count('<div class="crewpage"') == len(plan.crews)
+    assert "Workload per crew" in page and page.count("<svg") == 1 + len(plan.crews)
+    for c in plan.crews:
+        assert f"Route sheet &ndash; {c.id}" in page
 
 
 def test_report_same_plan_same_bytes(report, tmp_path):
@@ -134,7 +134,7 @@ def test_browser_draws_one_colour_per_crew(report, tmp_path):
     assert white < 0.97 * w * h  # not blank
     # every crew's colour is on screen (table chips, territory lines, legend), and no colour
     # of a crew that is not in the plan; exact pixel values, as flat fills are not blended
-    for i, _c in enumerate(plan["crews"]):
+    for i, _c in enumerate(plan.crews):
         assert counts.get(_rgb(PALETTE[i]), 0) >= 200, f"crew {i} colour {PALETTE[i]} missing"
-    for extra in PALETTE[len(plan["crews"]):]:
+    for extra in PALETTE[len(plan.crews):]:
         assert counts.get(_rgb(extra), 0) == 0

@@ -7,6 +7,7 @@ import pytest
 from pyproj import Geod
 
 from crewcut.cli.main import main
+from crewcut.plans.planfile import plan_to_dict
 from crewcut.plans.view import view
 from crewcut.reports.sheets import COMPASS, compass, crew_sheets, initial_bearing, route_sheet, turn_words
 from helpers.plans import make_plan
@@ -18,14 +19,15 @@ def _sheets(plan):
 
 
 def test_every_traversal_once_in_order_and_merged_by_street_and_mode(plan):
+    doc = plan_to_dict(plan)  # the plan file's records: what the report must show
     pv, sheets = _sheets(plan)
     merged_any = False
-    for sheet, crew in zip(sheets, plan["crews"]):
+    for sheet, crew in zip(sheets, doc["crews"]):
         trav = crew["routes"][0]["traversals"]
         steps = [ln for ln in sheet.lines if ln.kind == "step"]
         assert [i for ln in steps for i in ln.traversals] == list(range(len(trav)))
         for ln in steps:
-            names = {plan["network"]["segments"][trav[i]["segment"]]["name"] for i in ln.traversals}
+            names = {doc["network"]["segments"][trav[i]["segment"]]["name"] for i in ln.traversals}
             modes = {trav[i]["mode"] for i in ln.traversals}
             assert len(names) == 1 and len(modes) == 1  # one street, one mode per line
             assert all(trav[i]["turn"] != "u_turn" for i in ln.traversals[1:])  # a U-turn opens a new line
@@ -38,8 +40,9 @@ def test_every_traversal_once_in_order_and_merged_by_street_and_mode(plan):
 
 
 def test_depot_lines_and_unnamed_streets_said_plainly(plan):
+    doc = plan_to_dict(plan)  # the plan file's records: what the report must show
     pv, sheets = _sheets(plan)
-    for sheet, crew in zip(sheets, plan["crews"]):
+    for sheet, crew in zip(sheets, doc["crews"]):
         assert sheet.lines[0].kind == "start" and f"node {crew['depot_node']}" in sheet.lines[0].street
         assert sheet.lines[-1].kind == "end" and sheet.lines[-1].street.startswith("back at the depot")
     assert any(ln.street == "unnamed street" for s in sheets for ln in s.lines)
@@ -47,8 +50,9 @@ def test_depot_lines_and_unnamed_streets_said_plainly(plan):
 
 
 def test_cumulative_time_adds_up_to_route_total(plan):
+    doc = plan_to_dict(plan)  # the plan file's records: what the report must show
     pv, sheets = _sheets(plan)
-    for sheet, crew in zip(sheets, plan["crews"]):
+    for sheet, crew in zip(sheets, doc["crews"]):
         steps = [ln for ln in sheet.lines if ln.kind == "step"]
         prev = 0.0
         for ln in steps:
@@ -68,10 +72,11 @@ def test_compass_points():
 
 
 def test_headings_agree_with_pyproj_azimuths(plan):
+    doc = plan_to_dict(plan)  # the plan file's records: what the report must show
     # outside reference: pyproj Geod.inv forward azimuths on WGS84; the spherical formula
     # differs by far less than a compass sector at town scale
     g = Geod(ellps="WGS84")
-    segs = plan["network"]["segments"]
+    segs = doc["network"]["segments"]
     for s in segs:
         (a, b) = s["coords"][0], s["coords"][-1]
         az, _, _ = g.inv(a[0], a[1], b[0], b[1])
@@ -84,8 +89,8 @@ def test_turns_follow_the_traffic_side():
     plan = make_plan(k=2, traffic="left")
     pv = view(plan)
     crew = pv.crews[0]
-    sheet = route_sheet(pv, crew, crew["routes"][0])
-    trav = crew["routes"][0]["traversals"]
+    sheet = route_sheet(pv, crew, crew.routes[0])
+    trav = plan_to_dict(plan)["crews"][0]["routes"][0]["traversals"]
     for ln in sheet.lines:
         if ln.kind == "step" and trav[ln.traversals[0]]["turn"] == "across_traffic":
             assert ln.turn == "right"  # keeping left, a right turn crosses the oncoming lane

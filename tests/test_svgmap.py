@@ -2,13 +2,13 @@
 from __future__ import annotations
 
 import itertools
-import json
 import xml.etree.ElementTree as ET
 
 import numpy as np
 import pytest
 
 from crewcut.cli.main import main
+from crewcut.plans.planfile import plan_from_dict, plan_to_dict
 from crewcut.plans.view import view
 from crewcut.reports.svgmap import BACKGROUND, DEADHEAD, INK, PALETTE, route_svg, territory_svg
 
@@ -55,33 +55,35 @@ def test_palette_stays_distinguishable(vision):
 
 # --- territory map ----------------------------------------------------------------------
 def test_territory_map_one_colour_per_crew_and_legend(plan):
+    doc = plan_to_dict(plan)  # the plan file's records: what the report must show
     pv = view(plan)
     root = ET.fromstring(territory_svg(pv))
     assert root.tag == f"{SVG}svg"
     groups = {g.get("data-crew"): g for g in root.iter(f"{SVG}g") if g.get("data-crew")}
-    assert list(groups) == [c["id"] for c in plan["crews"]]
+    assert list(groups) == [c["id"] for c in doc["crews"]]
     strokes = [g.get("stroke") for g in groups.values()]
     assert len(set(strokes)) == len(strokes) and set(strokes) <= set(PALETTE)
-    for c in plan["crews"]:
+    for c in doc["crews"]:
         assert len(groups[c["id"]].findall(f"{SVG}path")) == len(c["territory"])
     texts = " | ".join(t.text or "" for t in root.iter(f"{SVG}text"))
-    for c in plan["crews"]:
+    for c in doc["crews"]:
         assert f"{c['id']}: {c['shift_min'] / 60:.2f} h" in texts  # legend: crew id and shift hours
         assert "depot: " + c["id"] in texts
 
 
 def test_map_puts_east_right_and_north_up(plan):
+    doc = plan_to_dict(plan)  # the plan file's records: what the report must show
     pv = view(plan)
     root = ET.fromstring(territory_svg(pv))
     rects = [r for r in root.iter(f"{SVG}rect") if r.get("width") == "14"]  # depot marks, sorted by node id
-    nodes = sorted({c["depot_node"] for c in plan["crews"]})
+    nodes = sorted({c["depot_node"] for c in doc["crews"]})
     xs = [float(r.get("x")) for r in rects]
-    lons = [plan["network"]["nodes"][n]["lon"] for n in nodes]
+    lons = [doc["network"]["nodes"][n]["lon"] for n in nodes]
     assert np.argsort(xs).tolist() == np.argsort(lons).tolist()
     # north up and east right: within a territory, the first point of every street is drawn
     # lower on the page when it lies further south, further right when further east
-    segs = plan["network"]["segments"]
-    crew = plan["crews"][0]
+    segs = doc["network"]["segments"]
+    crew = doc["crews"][0]
     group = next(g for g in root.iter(f"{SVG}g") if g.get("data-crew") == crew["id"])
     firsts = [tuple(map(float, p.get("d")[1:].split(" ")[0].split(","))) for p in group.findall(f"{SVG}path")]
     for (x1, y1), (x2, y2), s1, s2 in zip(firsts, firsts[1:], sorted(crew["territory"]), sorted(crew["territory"])[1:]):
@@ -94,10 +96,11 @@ def test_map_puts_east_right_and_north_up(plan):
 
 # --- route map --------------------------------------------------------------------------
 def test_route_map_service_deadhead_and_arrows(plan):
+    doc = plan_to_dict(plan)  # the plan file's records: what the report must show
     pv = view(plan)
-    crew = plan["crews"][1]
+    crew = doc["crews"][1]
     trav = crew["routes"][0]["traversals"]
-    root = ET.fromstring(route_svg(pv, crew))
+    root = ET.fromstring(route_svg(pv, plan.crews[1]))
     groups = list(root.iter(f"{SVG}g"))
     serve = [g for g in groups if g.get("stroke") == PALETTE[1] and g.get("stroke-dasharray") is None]
     dead = [g for g in groups if g.get("stroke") == DEADHEAD and g.get("stroke-dasharray")]
@@ -110,12 +113,12 @@ def test_route_map_service_deadhead_and_arrows(plan):
 
 
 def test_no_coordinates_is_a_clear_error(plan):
-    p = json.loads(json.dumps(plan))
+    p = plan_to_dict(plan)
     p["network"]["has_geometry"] = False
     for s in p["network"]["segments"]:
         s["coords"] = None
     with pytest.raises(InputError, match="no coordinates"):
-        territory_svg(view(p))
+        territory_svg(view(plan_from_dict(p)))
 
 
 def test_cli_map_files_and_bytes(plan_path, tmp_path, capsys):

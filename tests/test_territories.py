@@ -27,7 +27,7 @@ from crewcut.solve.network.repair import build_network
 
 def _grow(net, profile, crews, seed=0):
     sg = build_street_graph(net, profile)
-    depots = [c.depot for c in crews]
+    depots = [c.depot_node for c in crews]
     uniq = sorted(set(depots))
     out, back = depot_travel(net, profile, uniq)
     rt = round_trips(net, sg, out, back)[[uniq.index(d) for d in depots]]
@@ -114,7 +114,7 @@ def test_several_depots_anchor_their_territories():
                              Crew("east", 480.0, depot_lonlat=(-30.494, 45.2))))
     net = repaired_grid(12, 5, 2)
     crews = resolve_crews(net, profile)
-    assert crews[0].depot != crews[1].depot
+    assert crews[0].depot_node != crews[1].depot_node
     sg, owner = _grow(net, profile, crews)
     xw = sg.mid_x[owner == 0].mean()
     xe = sg.mid_x[owner == 1].mean()
@@ -203,7 +203,7 @@ def test_polish_borders_keeps_territories_and_cuts_border_turns(seed, k):
     net = repaired_grid(9, 7, seed)
     crews = resolve_crews(net, profile, k=k, depot_lonlat=(-30.5, 45.2))
     sg, owner = _grow(net, profile, crews, seed)
-    depots = [c.depot for c in crews]
+    depots = [c.depot_node for c in crews]
     out, back = depot_travel(net, profile, sorted(set(depots)))
     el = np.isfinite(round_trips(net, sg, out, back))[[0] * k]
     model = TurnModel.from_network(net, profile)

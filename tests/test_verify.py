@@ -4,7 +4,8 @@ The valid plans come from ``tests/helpers/plans.py``, which builds routes with
 networkx's ``eulerize`` and ``eulerian_circuit`` (not with the project's route
 engine or planner), so the verifier is tested against an outside construction.
 Each broken plan breaks exactly one invariant; the test checks the verifier
-names that one.
+names that one. Plans are broken by editing the plan file's document (as a
+person editing the file would) and read back with ``plan_from_dict``.
 """
 from __future__ import annotations
 
@@ -13,7 +14,9 @@ import copy
 import pytest
 
 from helpers.checks import check_plan_independently
+from crewcut.plans.planfile import plan_from_dict, plan_to_dict
 from crewcut.plans.verify import check_plan
+from crewcut.solve.errors import InputError
 from helpers.nets import named_grid
 from helpers.plans import make_plan
 from crewcut.solve.profile import Profile
@@ -43,17 +46,18 @@ def _retotal(plan: dict) -> None:
 
 @pytest.fixture(scope="module")
 def valid():
-    return make_plan(k=3), named_grid(), _profile()
+    """The plan file's document of a factory plan, its network and profile."""
+    return plan_to_dict(make_plan(k=3)), named_grid(), _profile()
 
 
 def test_valid_plan_passes(valid):
     plan, net, profile = valid
     check_plan_independently(plan)  # the outside construction is valid by the test's own checker
-    assert check_plan(plan, net, profile) == []
+    assert check_plan(plan_from_dict(plan), net, profile) == []
 
 
 def _first(plan, net, profile) -> str:
-    found = check_plan(plan, net, profile)
+    found = check_plan(plan_from_dict(plan), net, profile)
     assert found, "the verifier accepted a broken plan"
     return str(found[0])
 
@@ -128,23 +132,28 @@ def test_totals_do_not_add_up(valid):
     plan, net, profile = valid
     p = copy.deepcopy(plan)
     p["crews"][0]["routes"][0]["totals"]["total_min"] += 1.0
+    p["crews"][0]["shift_min"] += 1.0  # the shift still adds up: only the route's totals are off
     assert "totals.total_min" in _first(p, net, profile)
 
 
 def test_shift_does_not_add_up(valid):
+    # a crew's shift is the sum of its routes: a file that says otherwise is refused when it is read
     plan, net, profile = valid
     p = copy.deepcopy(plan)
     p["crews"][2]["shift_min"] += 5.0
-    assert "shift_min" in _first(p, net, profile)
+    with pytest.raises(InputError, match="damaged plan file: crew 'crew-C': shift_min"):
+        plan_from_dict(p)
 
 
 def test_traversal_along_a_segment_it_is_not_on(valid):
+    # a traversal must join its segment's two ends: a file that says otherwise is refused when it is read
     plan, net, profile = valid
     p = copy.deepcopy(plan)
     t = p["crews"][0]["routes"][0]["traversals"][3]
     t["segment"] = next(s["id"] for s in p["network"]["segments"]
                         if t["from"] not in (s["from"], s["to"]))
-    assert "whose ends are" in _first(p, net, profile)
+    with pytest.raises(InputError, match="traversal 3 does not match its segment's end nodes"):
+        plan_from_dict(p)
 
 
 def test_wrong_minutes(valid):
@@ -164,7 +173,8 @@ def test_plan_made_with_other_speeds(valid):
 
 @pytest.mark.parametrize("edit", ["drop_minutes", "crew_not_object", "null_total", "bool_segment"])
 def test_malformed_records_are_violations_not_crashes(valid, edit):
-    # a hand-edited plan file is bad input: a violation naming it, never an exception (brief, "Bad input")
+    # a hand-edited plan file is bad input: refused when read, with a message naming it, never another
+    # exception (the project's bad-input rule: a clear message, exit status 2)
     plan, net, profile = valid
     p = copy.deepcopy(plan)
     if edit == "drop_minutes":
@@ -175,8 +185,9 @@ def test_malformed_records_are_violations_not_crashes(valid, edit):
         p["crews"][0]["routes"][0]["totals"]["total_min"] = None
     else:
         p["crews"][0]["territory"][0] = True
-    msg = _first(p, net, profile)
-    assert "malformed" in msg or "does not exist" in msg
+    with pytest.raises(InputError, match="damaged plan file") as exc:
+        plan_from_dict(p, "plan.json")
+    assert exc.value.message.startswith("plan.json: damaged plan file: ")
 
 
 # ----------------------------------------------------------------------------- the JSON Schema

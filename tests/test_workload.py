@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import csv
+import dataclasses
 import io
 import json
 import math
@@ -12,14 +13,16 @@ from rich.console import Console
 
 from crewcut.cli.main import main
 from crewcut.cli.tables import workload_table
+from crewcut.plans.planfile import plan_to_dict
 from crewcut.reports.workload import COLUMNS, workload_rows, workload_summary
 
 
 
 def test_rows_follow_the_traversals(plan):
+    doc = plan_to_dict(plan)  # the plan file's records: what the report must show
     rows = workload_rows(plan)
-    assert [r["crew"] for r in rows[:-1]] == [c["id"] for c in plan["crews"]]
-    for r, c in zip(rows, plan["crews"]):
+    assert [r["crew"] for r in rows[:-1]] == [c["id"] for c in doc["crews"]]
+    for r, c in zip(rows, doc["crews"]):
         trav = [t for route in c["routes"] for t in route["traversals"]]
         assert r["segments"] == len(c["territory"])
         assert r["service_km"] == pytest.approx(sum(t["metres"] for t in trav if t["mode"] == "service") / 1000)
@@ -33,10 +36,11 @@ def test_rows_follow_the_traversals(plan):
 
 
 def test_service_km_equals_geodesic_length_of_required_streets(plan):
+    doc = plan_to_dict(plan)  # the plan file's records: what the report must show
     # outside reference: pyproj's geodesic (Karney) lengths of the streets that need service;
     # every street of this test town needs one pass, so service km = their total length
     g = Geod(ellps="WGS84")
-    need = [s for s in plan["network"]["segments"] if sum(s["passes"].values()) > 0]
+    need = [s for s in doc["network"]["segments"] if sum(s["passes"].values()) > 0]
     total_m = sum(g.line_length([p[0] for p in s["coords"]], [p[1] for p in s["coords"]]) for s in need)
     # coordinates in the plan are rounded to 7 decimals (about 1 cm), hence rel 1e-5
     assert workload_rows(plan)[-1]["service_km"] * 1000 == pytest.approx(total_m, rel=1e-5)
@@ -53,13 +57,14 @@ def test_totals_row_adds_up(plan):
 
 
 def test_summary_flags_over_limit_and_reads_bound(plan):
+    doc = plan_to_dict(plan)  # the plan file's records: what the report must show
     s = workload_summary(plan)
-    shifts = [c["shift_min"] for c in plan["crews"]]
+    shifts = [c["shift_min"] for c in doc["crews"]]
     assert s["longest_shift_min"] == pytest.approx(max(shifts), abs=1e-3)
     assert s["longest_over_mean"] == pytest.approx(max(shifts) / (sum(shifts) / len(shifts)), rel=1e-4)
-    assert s["lower_bound_min"] == plan["summary"]["lower_bound_min"]
-    assert s["gap"] == plan["summary"]["gap"]
-    over = [c["id"] for c in plan["crews"] if c["shift_min"] > c["shift_limit_min"]]
+    assert s["lower_bound_min"] == doc["summary"]["lower_bound_min"]
+    assert s["gap"] == doc["summary"]["gap"]
+    over = [c["id"] for c in doc["crews"] if c["shift_min"] > c["shift_limit_min"]]
     assert over == ["crew-A"]  # the factory gives crew-A a 20-minute limit
     assert [o["crew"] for o in s["over_limit"]] == over
     text = _render(workload_table(plan))
@@ -73,7 +78,7 @@ def _render(table) -> str:
 
 
 def test_bound_missing_is_said_plainly(plan):
-    p = dict(plan, summary={})
+    p = dataclasses.replace(plan, summary=None)
     s = workload_summary(p)
     assert s["lower_bound_min"] is None and s["gap"] is None
     assert "not recorded" in _render(workload_table(p))
@@ -121,7 +126,7 @@ def test_cli_not_a_plan(tmp_path, capsys, content):
 
 
 def test_cli_malformed_plan_names_the_crew(tmp_path, plan, capsys):
-    p = json.loads(json.dumps(plan))
+    p = plan_to_dict(plan)
     p["crews"][1]["routes"][0]["traversals"][3]["segment"] = 10_000
     path = tmp_path / "plan.json"
     path.write_text(json.dumps(p))

@@ -4,13 +4,14 @@ from __future__ import annotations
 from rich.table import Table
 from rich.text import Text
 
+from crewcut.plans.model import Plan
 from crewcut.plans.view import PlanView, view
 from crewcut.reports.workload import COLUMNS, fmt, summary_lines, workload_rows
 
 
-def workload_table(plan: dict) -> Table:
+def workload_table(plan: Plan | PlanView) -> Table:
     """The workload table as a rich Table (crews over their shift limit in bold red, marked '!')."""
-    pv = plan if isinstance(plan, PlanView) else view(plan)
+    pv = view(plan)
     rows = workload_rows(pv)
     table = Table(title="Workload per crew", caption="\n".join(summary_lines(pv)), caption_justify="left",
                   show_footer=False, header_style="bold")

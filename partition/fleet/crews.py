@@ -1,13 +1,14 @@
 """Crews for a plan: from the config's ``[[crews]]`` tables or the shortcut of k crews sharing one depot.
 
-Every crew ends up with a depot *node* (a lon/lat depot is snapped to the nearest
-usable node with :func:`crewcut.solve.network.depot.snap_depot`) and a shift limit in minutes.
+Every crew is a :class:`crewcut.solve.profile.Crew` that ends up with a depot *node*
+(a lon/lat depot is snapped to the nearest usable node with
+:func:`crewcut.solve.network.depot.snap_depot`) and a shift limit in minutes (a float).
 Crews may have different shift limits and different depots. Everything is checked
 up front, before any planning starts, with messages that name the crew or setting.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+import dataclasses
 
 import numpy as np
 
@@ -15,22 +16,13 @@ from crewcut.solve.costs import required_passes
 from crewcut.solve.network.depot import check_depot_node, snap_depot
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import Network
-from crewcut.solve.profile import Profile
-
-
-@dataclass(frozen=True)
-class FleetCrew:
-    """A crew ready for planning: its id, its depot node and its shift limit (minutes)."""
-
-    id: str
-    depot: int
-    shift_limit_min: float
+from crewcut.solve.profile import Crew, Profile
 
 
 def resolve_crews(net: Network, profile: Profile, *, k: int | None = None,
                   depot_lonlat: tuple[float, float] | None = None,
-                  only: list[str] | None = None) -> list[FleetCrew]:
-    """The crews to plan for.
+                  only: list[str] | None = None) -> list[Crew]:
+    """The crews to plan for, each with its depot node set (``Crew.depot_node``) and its shift limit in minutes.
 
     Parameters
     ----------
@@ -60,7 +52,8 @@ def resolve_crews(net: Network, profile: Profile, *, k: int | None = None,
                              "add `depot_lonlat` (the yard's position), or [[crews]] tables to the config",
                              param="depot_lonlat")
         width = len(str(int(k)))
-        crews = [FleetCrew(f"crew-{i + 1:0{width}d}", node, float(profile.shift_limit_min)) for i in range(int(k))]
+        crews = [Crew(f"crew-{i + 1:0{width}d}", float(profile.shift_limit_min), depot_lonlat, node)
+                 for i in range(int(k))]
     else:
         if depot_lonlat is not None:
             raise InputError("`depot_lonlat` was given without `k`",
@@ -80,7 +73,8 @@ def resolve_crews(net: Network, profile: Profile, *, k: int | None = None,
                 raise InputError("a crew id is given twice in `only`", "name each crew once", param="only")
             keep = set(only)
             chosen = [c for c in profile.crews if c.id in keep]
-        crews = [FleetCrew(c.id, _crew_depot(net, profile, c), float(c.shift_limit_min)) for c in chosen]
+        crews = [dataclasses.replace(c, shift_limit_min=float(c.shift_limit_min), depot_node=_crew_depot(net, profile, c))
+                 for c in chosen]
     n_required = int(np.count_nonzero(required_passes(net, profile).total))
     if n_required == 0:
         raise InputError("the network has no segment that needs service under this profile",

@@ -14,20 +14,14 @@ import numpy as np
 
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import Network
-from crewcut.solve.profile import Profile
+from crewcut.solve.profile import Crew, Profile
 
+from crewcut.fleet.changes import Changes
 from crewcut.fleet.streets import StreetGraph
 from crewcut.fleet.territories import describe_segment
+from crewcut.plans.model import Plan
 
 OVERFLOW_MODES = (None, "defer", "overtime")
-
-
-@dataclasses.dataclass(frozen=True)
-class DayCrew:
-    id: str
-    depot: int
-    shift_limit_min: float
-    old: int  # index in the parent plan, -1 for an extra crew
 
 
 def check_params(stability, overflow, tolerance, seed, time_limit_s) -> None:
@@ -47,32 +41,37 @@ def check_params(stability, overflow, tolerance, seed, time_limit_s) -> None:
                          param="time_limit_s")
 
 
-def crews_of_the_day(plan: dict, today: Network, profile: Profile, absent, add_crews, shift_limits) -> list[DayCrew]:
-    old = plan["crews"]
-    ids = [str(c["id"]) for c in old]
+def crews_of_the_day(plan: Plan, today: Network, profile: Profile, changes: Changes) -> list[Crew]:
+    """The crews at work today: the plan's crews less the absent ones, then the extra crews, with today's limits.
+
+    Each crew has its depot node set; an extra crew's depot is snapped to today's
+    network. A crew of the parent plan keeps its id, so its parent record is
+    ``plan.crew(crew.id)``.
+    """
+    ids = plan.crew_ids()
     known = set(ids)
-    absent = [str(a) for a in absent]
+    absent = [str(a) for a in changes.absent]
     for a in absent:
         if a not in known:
             raise InputError(f"unknown crew id '{a}' (`absent`)", f"crews in the plan: {', '.join(ids)}",
                              param="absent")
     gone = set(absent)
-    extra = []
-    for item in add_crews:
-        try:
-            cid, lon, lat = item
-            cid, lon, lat = str(cid).strip(), float(lon), float(lat)
-        except (TypeError, ValueError):
-            raise InputError(f"extra crew {item!r} in `add_crews` is not (id, lon, lat)",
-                             "give each extra crew as (id, lon, lat)", param="add_crews") from None
+    extra: list[Crew] = []
+    for item in changes.added_crews:
+        if not isinstance(item, Crew):
+            raise InputError(f"extra crew {item!r} in `added_crews` is not a crew", "give each extra crew as a Crew",
+                             param="added_crews")
+        cid = str(item.id).strip()
         if not cid:
-            raise InputError("an extra crew in `add_crews` has an empty id", "give each extra crew an id, e.g. relief",
-                             param="add_crews")
-        if cid in known or cid in {e[0] for e in extra}:
+            raise InputError("an extra crew in `added_crews` has an empty id", "give each extra crew an id, e.g. relief",
+                             param="added_crews")
+        if cid in known or cid in {e.id for e in extra}:
             raise InputError(f"extra crew id '{cid}' is already used", "give the extra crew a new id")
-        extra.append((cid, lon, lat))
-    limits = dict(shift_limits or {})
-    all_ids = [i for i in ids if i not in gone] + [e[0] for e in extra]
+        if item.depot_lonlat is None and item.depot_node is None:
+            raise InputError(f"extra crew '{cid}' has no depot", "write it as ID@LON,LAT")
+        extra.append(dataclasses.replace(item, id=cid))
+    limits = dict(changes.shift_limits or {})
+    all_ids = [i for i in ids if i not in gone] + [e.id for e in extra]
     for cid, value in limits.items():
         if cid not in all_ids:
             raise InputError(f"unknown crew id '{cid}' (`shift_limits`)" + (" : that crew is absent" if cid in gone else ""),
@@ -82,28 +81,33 @@ def crews_of_the_day(plan: dict, today: Network, profile: Profile, absent, add_c
                              "give minutes above 0, e.g. 480 for 8 hours")
     if not all_ids:
         raise InputError(f"every crew of the plan is absent ({', '.join(ids)}) and no extra crew is given",
-                         "leave at least one crew at work, or add one with `add_crews`")
-    from crewcut.solve.network.depot import snap_depot
+                         "leave at least one crew at work, or add one with `added_crews`")
+    from crewcut.solve.network.depot import check_depot_node, snap_depot
 
-    crews = [DayCrew(str(c["id"]), int(c["depot_node"]), float(limits.get(str(c["id"]), c["shift_limit_min"])), i)
-             for i, c in enumerate(old) if str(c["id"]) not in gone]
-    for cid, lon, lat in extra:
-        node = snap_depot(today, lon, lat, profile.depot_snap_max_m, who=f"depot of extra crew '{cid}'")
-        crews.append(DayCrew(cid, node, float(limits.get(cid, profile.shift_limit_min)), -1))
+    crews = [dataclasses.replace(c.crew, shift_limit_min=float(limits.get(c.id, c.shift_limit_min)))
+             for c in plan.crews if c.id not in gone]
+    for e in extra:
+        who = f"depot of extra crew '{e.id}'"
+        if e.depot_lonlat is not None:
+            lon, lat = e.depot_lonlat
+            node = snap_depot(today, float(lon), float(lat), profile.depot_snap_max_m, who=who)
+        else:
+            node = check_depot_node(today, e.depot_node, who=who, usable=True)
+        crews.append(dataclasses.replace(e, depot_node=node, shift_limit_min=float(limits.get(e.id, e.shift_limit_min))))
     return crews
 
 
-def check_depots(today: Network, crews: list[DayCrew], closed: np.ndarray, eligible: np.ndarray,
+def check_depots(today: Network, crews: list[Crew], closed: np.ndarray, eligible: np.ndarray,
                   sg: StreetGraph) -> None:
     shut = ", ".join(f"{int(s)} ('{today.seg_source[int(s)]}')" for s in closed[:8]) or "none"
     for i, c in enumerate(crews):
-        at = (today.seg_u == c.depot) | (today.seg_v == c.depot)
+        at = (today.seg_u == c.depot_node) | (today.seg_v == c.depot_node)
         if not (at & ~today.seg_closed).any():
-            raise InputError(f"the closures cut the depot of crew '{c.id}' (node {c.depot}) off the network: every "
+            raise InputError(f"the closures cut the depot of crew '{c.id}' (node {c.depot_node}) off the network: every "
                              f"street at it is closed (closed today: {shut})",
                              f"keep a street at the depot open, or mark crew '{c.id}' absent")
         if not eligible[i].any():
-            raise InputError(f"the closures cut the depot of crew '{c.id}' (node {c.depot}) off the network: from it "
+            raise InputError(f"the closures cut the depot of crew '{c.id}' (node {c.depot_node}) off the network: from it "
                              f"no street that needs service can be reached and left again (closed today: {shut})",
                              f"keep a way out of the depot open, or mark crew '{c.id}' absent")
     cut = np.flatnonzero(sg.required & ~eligible.any(axis=0))

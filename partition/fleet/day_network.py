@@ -19,11 +19,12 @@ from crewcut.solve.network.model import SERVICE_LABELS, Network, RawLine
 from crewcut.solve.profile import Profile
 
 from crewcut.fleet.territories import describe_segment
+from crewcut.plans.model import Plan, SegmentRecord
 
 _MIN_TOL = 1e-4  # minutes: the plan file rounds segment minutes to 5 decimals
 
 
-def resolve_closures(plan: dict, items: Iterable) -> np.ndarray:
+def resolve_closures(plan: Plan, items: Iterable) -> np.ndarray:
     """Segment ids to close from segment ids (ints or whole-number strings) or feature ids (strings).
 
     A whole number is a segment id of the plan (as in the plan file and route
@@ -31,7 +32,7 @@ def resolve_closures(plan: dict, items: Iterable) -> np.ndarray:
     cut from that feature closes); ``feature=ID`` forces a feature id that is a
     whole number.
     """
-    segs = plan["network"]["segments"]
+    segs = plan.network.segments
     m = len(segs)
     by_source: dict[str, list[int]] | None = None
     out: list[int] = []
@@ -60,14 +61,14 @@ def resolve_closures(plan: dict, items: Iterable) -> np.ndarray:
         if by_source is None:
             by_source = {}
             for rec in segs:
-                by_source.setdefault(str(rec["source_id"]), []).append(int(rec["id"]))
+                by_source.setdefault(rec.source_id, []).append(rec.id)
         if not key or key not in by_source:
             raise InputError(f"closed street '{key}' does not exist: no segment of the plan's network comes "
                              f"from a feature with that id",
                              "give the feature id used in the street data, or a segment id (a whole number)")
         out.extend(by_source[key])
     ids = np.unique(np.asarray(out, np.int64))
-    already = [int(s) for s in ids if segs[int(s)]["closed"]]
+    already = [int(s) for s in ids if segs[int(s)].closed]
     if already:
         raise InputError(f"segment(s) already closed in the plan's network: "
                          f"{', '.join(_name(segs, s) for s in already[:8])}",
@@ -75,8 +76,8 @@ def resolve_closures(plan: dict, items: Iterable) -> np.ndarray:
     return ids
 
 
-def _name(segs: list[dict], s: int) -> str:
-    return f"{s} ('{segs[s]['source_id']}')"
+def _name(segs: tuple[SegmentRecord, ...], s: int) -> str:
+    return f"{s} ('{segs[s].source_id}')"
 
 
 def _seg_arrays(net: Network, keep: np.ndarray | slice, closed: np.ndarray | None = None) -> Network:
@@ -90,44 +91,44 @@ def _seg_arrays(net: Network, keep: np.ndarray | slice, closed: np.ndarray | Non
         seg_coords=[net.seg_coords[i] for i in idx], seg_source=[net.seg_source[i] for i in idx], findings=())
 
 
-def _differences(plan: dict, net: Network, closed: np.ndarray, limit: int = 6) -> list[str]:
+def _differences(plan: Plan, net: Network, closed: np.ndarray, limit: int = 6) -> list[str]:
     """Human-readable differences between the plan's segments and the network's first ones."""
-    segs = plan["network"]["segments"]
+    segs = plan.network.segments
     named = set(closed.tolist())
     out = []
     for rec in segs[:net.n_segments]:
-        s = int(rec["id"])
+        s = rec.id
         why = []
-        if (int(rec["from"]), int(rec["to"])) != (int(net.seg_u[s]), int(net.seg_v[s])):
+        if (rec.from_node, rec.to_node) != (int(net.seg_u[s]), int(net.seg_v[s])):
             why.append("different ends")
-        if abs(float(rec["length_m"]) - float(net.seg_length[s])) > 0.0015:
-            why.append(f"length {net.seg_length[s]:.3f} m instead of {float(rec['length_m']):.3f} m")
-        if bool(rec["oneway"]) != bool(net.seg_oneway[s]):
+        if abs(float(rec.length_m) - float(net.seg_length[s])) > 0.0015:
+            why.append(f"length {net.seg_length[s]:.3f} m instead of {float(rec.length_m):.3f} m")
+        if rec.oneway != bool(net.seg_oneway[s]):
             why.append("one-way differs")
-        if bool(rec["closed"]) != bool(net.seg_closed[s]) and s not in named:
-            why.append("closed in the file but not named with `close`" if net.seg_closed[s] else
+        if rec.closed != bool(net.seg_closed[s]) and s not in named:
+            why.append("closed in the file but not named with `closed`" if net.seg_closed[s] else
                        "open in the file but closed in the plan")
-        if rec["service"] != SERVICE_LABELS[int(net.seg_service[s])]:
-            why.append(f"service {SERVICE_LABELS[int(net.seg_service[s])]} instead of {rec['service']}")
-        if str(rec["source_id"]) != net.seg_source[s]:
-            why.append(f"feature '{net.seg_source[s]}' instead of '{rec['source_id']}'")
+        if rec.service != SERVICE_LABELS[int(net.seg_service[s])]:
+            why.append(f"service {SERVICE_LABELS[int(net.seg_service[s])]} instead of {rec.service}")
+        if rec.source_id != net.seg_source[s]:
+            why.append(f"feature '{net.seg_source[s]}' instead of '{rec.source_id}'")
         if why:
-            out.append(f"segment {s} ('{rec['source_id']}'): {', '.join(why)}")
+            out.append(f"segment {s} ('{rec.source_id}'): {', '.join(why)}")
             if len(out) >= limit:
                 out.append("...")
                 break
     return out
 
 
-def match_network(plan: dict, net: Network, profile: Profile, closed: np.ndarray,
+def match_network(plan: Plan, net: Network, profile: Profile, closed: np.ndarray,
                   opened_sources: Sequence[str] | None = None, *, name: str = "the network") -> bool:
     """Check ``net`` against the plan (see the module notes); True when it already holds the added streets.
 
     Raises :class:`InputError` naming the differences otherwise.
     """
-    nw = plan["network"]
-    segs, m, n = nw["segments"], len(nw["segments"]), len(nw["nodes"])
-    hint = ("give the network file the plan was made on (or that file with exactly the `close` streets marked "
+    nw = plan.network
+    segs, m, n = nw.segments, len(nw.segments), len(nw.nodes)
+    hint = ("give the network file the plan was made on (or that file with exactly the `closed` streets marked "
             "closed), and new streets as `opened`")
     if net.n_segments < m or net.n_nodes < n or (m and int(max(net.seg_u[:m].max(), net.seg_v[:m].max())) >= n):
         raise InputError(f"{name} is not the network the plan was made on: it has {net.n_segments} segments and "
@@ -136,14 +137,14 @@ def match_network(plan: dict, net: Network, profile: Profile, closed: np.ndarray
     reopened = net.seg_closed[:m].copy()
     reopened[closed] = False
     prefix = _seg_arrays(net, slice(0, m), reopened)
-    if prefix.fingerprint != nw["fingerprint"]:
+    if prefix.fingerprint != nw.fingerprint:
         diff = _differences(plan, net, closed)
         detail = "; ".join(diff) if diff else "the segment records in the plan file do not add up to its fingerprint"
         raise InputError(f"{name} is not the network the plan was made on (fingerprint differs): {detail}", hint)
     smin = service_minutes(prefix, profile)
     dmin = deadhead_minutes(prefix, profile)
-    rec_s = np.array([float(r["service_min"]) for r in segs])
-    rec_d = np.array([float(r["deadhead_min"]) for r in segs])
+    rec_s = np.array([float(r.service_min) for r in segs])
+    rec_d = np.array([float(r.deadhead_min) for r in segs])
     bad = np.flatnonzero((np.abs(smin - rec_s) > _MIN_TOL) | (np.abs(dmin - rec_d) > _MIN_TOL))
     if bad.size:
         raise InputError(f"{name}: the minutes of {bad.size} segment(s) differ from the plan's (speed limits or the "
@@ -237,7 +238,7 @@ def _no_mid_touch(base: Network, add: Network, ax, ay, joined: np.ndarray, tol: 
                          "would change the plan's segment ids), or re-plan with the new streets in the network")
 
 
-def network_of_the_day(plan: dict, net: Network, profile: Profile, closed: np.ndarray,
+def network_of_the_day(plan: Plan, net: Network, profile: Profile, closed: np.ndarray,
                        opened: Network | Sequence[RawLine] | None, *, name: str = "the network") -> tuple[Network, np.ndarray]:
     """The network the new plan is made on, and the ids of the added segments."""
     if opened is not None and not isinstance(opened, Network):
@@ -247,7 +248,7 @@ def network_of_the_day(plan: dict, net: Network, profile: Profile, closed: np.nd
         opened = build_network(lines, profile, has_geometry=all(ln.coords is not None for ln in lines))
     holds_added = match_network(plan, net, profile, closed, None if opened is None else list(opened.seg_source),
                                 name=name)
-    m = len(plan["network"]["segments"])
+    m = len(plan.network.segments)
     shut = net.seg_closed.copy()
     shut[closed] = True
     today = dataclasses.replace(net, seg_closed=shut)

@@ -19,7 +19,8 @@ Method (cluster first, route second, then local search)
 4. :mod:`crewcut.fleet.balancer`: boundary moves and swaps re-routed exactly;
 5. :func:`crewcut.solve.postman.bounds.fleet_lower_bound`: max(a bound on all crews' minutes
    together / k, the longest depot -> pass -> depot round trip), after Ahr and
-   Reinelt (2006).
+   Reinelt (2006); steps 3 to 5 and the plan are :mod:`crewcut.fleet.assemble`,
+   shared with the replan.
 """
 from __future__ import annotations
 
@@ -29,30 +30,29 @@ import numpy as np
 
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import Network
-from crewcut.solve.profile import Profile
+from crewcut.solve.profile import Crew, Profile
 from crewcut.solve.circuits.turns import TurnModel
 
-from crewcut.fleet.balancer import BalanceReport, FleetState, balance
-from crewcut.fleet.crews import FleetCrew
-from crewcut.plans.planfile import CrewPlan, build_plan
-from crewcut.fleet.executor import LocalRouter, RouteJob, Router, check_workers
+from crewcut.fleet.assemble import finish_plan, route_and_balance
+from crewcut.fleet.executor import LocalRouter, Router, check_workers
 from crewcut.fleet.progress import ProgressFn
 from crewcut.fleet.seeding import seed_territories
 from crewcut.fleet.streets import build_street_graph, depot_travel, round_trips
-from crewcut.fleet.territories import BorderTurns, describe_segment, grow_territories, polish_borders, smooth_boundaries, territories_of
+from crewcut.fleet.territories import BorderTurns, describe_segment, grow_territories, polish_borders, smooth_boundaries
+from crewcut.plans.model import BalanceLimits, Plan, RunOptions, recorded_crew
 
 
-def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: int = 0,
+def plan_fleet(net: Network, profile: Profile, crews: list[Crew], *, seed: int = 0,
                workers: int | None = None, time_limit_s: float | None = None, tolerance: float = 0.003,
                max_iterations: int = 500, route_time_limit_s: float = 10.0,
                progress: ProgressFn | None = None, router: Router | None = None,
-               source: str = "") -> dict:
-    """Plan territories and routes for ``crews``; returns the plan document.
+               source: str = "") -> Plan:
+    """Plan territories and routes for ``crews``; returns the plan.
 
     Parameters
     ----------
     net, profile: the street network and the work profile.
-    crews: from :func:`crewcut.fleet.crews.resolve_crews`.
+    crews: from :func:`crewcut.fleet.crews.resolve_crews` (each with its ``depot_node`` set).
     seed: seeds k-means and every route; same input and seed give the same plan
         (unless the balancer stops on ``time_limit_s``, which the summary says).
     workers: processes for routing (default: all cores); does not change the plan.
@@ -65,12 +65,11 @@ def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: 
     _check(crews, seed, time_limit_s, tolerance, max_iterations)
     check_workers(workers)
     report = _progress(progress)
-    k = len(crews)
     sg = build_street_graph(net, profile)
     if not sg.required.any():
         raise InputError("the network has no segment that needs service under this profile",
                          "check the profile's default_service per road class and the data's service tags")
-    depots = [c.depot for c in crews]
+    depots = [int(c.depot_node) for c in crews]
     uniq = sorted(set(depots))
     out, back = depot_travel(net, profile, uniq)
     rt_depot = round_trips(net, sg, out, back)
@@ -90,91 +89,18 @@ def plan_fleet(net: Network, profile: Profile, crews: list[FleetCrew], *, seed: 
     own_router = router is None
     if own_router:
         router = LocalRouter(net, profile, workers=workers, time_limit_s=route_time_limit_s)
-    limits = np.array([c.shift_limit_min for c in crews], float)
     try:
-        state, bal = _route_and_balance(owner, router, sg, eligible, depots, limits, seed, tolerance,
-                                        max_iterations, time_limit_s, progress, report, border)
+        state, bal = route_and_balance(router, sg, eligible, crews, owner, seed=seed, tolerance=tolerance,
+                                       max_iterations=max_iterations, time_limit_s=time_limit_s,
+                                       progress=progress, border=border)
     finally:
         if own_router:
             router.close()
-    report("lower bound", 0, 1)
-    from crewcut.solve.postman.bounds import fleet_lower_bound
-
-    lb = float(fleet_lower_bound(net, profile, depots, k))
-    report("lower bound", 1, 1)
-    terr = territories_of(state.owner, k)
-    plans = [CrewPlan(id=c.id, depot_node=c.depot, shift_limit_min=c.shift_limit_min,
-                      territory=terr[i].tolist(), routes=[state.routes[i]]) for i, c in enumerate(crews)]
-    summary = fleet_summary(plans, lb, bal)
-    settings = {"seed": int(seed), "crews": [{"id": c.id, "depot_node": int(c.depot),
-                                              "shift_limit_min": float(c.shift_limit_min)} for c in crews],
-                "balance": {"tolerance": float(tolerance), "max_iterations": int(max_iterations),
-                            "time_limit_s": None if time_limit_s is None else float(time_limit_s)},
-                "route_time_limit_s": float(route_time_limit_s)}
-    return build_plan(net, profile, plans, source=source, settings=settings, summary=summary)
-
-
-def _route_and_balance(owner, router, sg, eligible, depots, limits, seed, tolerance, max_iterations,
-                       time_limit_s, progress, report, border=None):
-    k = len(depots)
-    terr = territories_of(owner, k)
-    report("routing territories", 0, k)
-    routes = router.route_many([RouteJob.of(depots[c], terr[c], seed) for c in range(k)])
-    report("routing territories", k, k)
-    state = FleetState(owner=owner, routes=list(routes), depots=list(depots), limits=limits)
-    bal = balance(state, sg, router, eligible, seed=seed, tolerance=tolerance,
-                  max_iterations=max_iterations, time_limit_s=time_limit_s, progress=progress, border=border)
-    return state, bal
-
-
-def fleet_summary(plans: list[CrewPlan], lower_bound_min: float, bal: BalanceReport | None = None) -> dict:
-    """Longest, mean, lower bound and gap, crews over their limit, and an estimate of the crews needed."""
-    shifts = np.array([p.shift_min for p in plans])
-    limits = np.array([p.shift_limit_min for p in plans])
-    longest, mean = float(shifts.max()), float(shifts.mean())
-    over = [{"crew": p.id, "shift_min": p.shift_min, "limit_min": p.shift_limit_min,
-             "over_min": p.shift_min - p.shift_limit_min} for p in plans if p.shift_min > p.shift_limit_min + 1e-9]
-    service = sum(r.totals.service_min for p in plans for r in p.routes)
-    dead = sum(r.totals.deadhead_min for p in plans for r in p.routes)
-    dead_km = sum(r.totals.deadhead_km for p in plans for r in p.routes)
-    serv_km = sum(r.totals.service_km for p in plans for r in p.routes)
-    out = {
-        "crews": len(plans),
-        "longest_min": longest,
-        "mean_min": mean,
-        "shortest_min": float(shifts.min()),
-        "longest_over_mean": longest / mean if mean > 0 else 1.0,
-        "lower_bound_min": lower_bound_min,
-        "gap": longest / lower_bound_min - 1.0 if lower_bound_min > 0 else 0.0,
-        "total_shift_min": float(shifts.sum()),
-        "service_min": service,
-        "deadhead_min": dead,
-        "deadhead_pct": 100.0 * dead_km / (dead_km + serv_km) if dead_km + serv_km > 0 else 0.0,
-        "over_limit": over,
-        "crews_needed_estimate": crews_needed(float(shifts.sum()), lower_bound_min, limits),
-        "method": "cluster first (k-means seeds, connected growth), route second, boundary balancing; heuristic",
-    }
-    if bal is not None:
-        b = bal.to_dict()
-        b.pop("seconds", None)  # wall time is not part of the plan: same input, same bytes
-        out["balance"] = b
-    return out
-
-
-def crews_needed(total_min: float, lower_bound_min: float, limits: np.ndarray) -> int:
-    """Smallest crew count whose limits could hold the work (an estimate, not a plan).
-
-    Adds crews in decreasing order of shift limit (more crews than planned take the
-    smallest limit) until their limits add up to the plan's total shift minutes.
-    """
-    lim = np.sort(np.asarray(limits, float))[::-1]
-    acc, j = 0.0, 0
-    while acc + 1e-9 < total_min:
-        acc += lim[j] if j < lim.size else lim[-1]
-        j += 1
-        if j > 100000:
-            break
-    return max(1, j)
+    options = RunOptions(seed=int(seed), crews=tuple(recorded_crew(c) for c in crews),
+                         balance=BalanceLimits(float(tolerance), int(max_iterations),
+                                               None if time_limit_s is None else float(time_limit_s)),
+                         route_time_limit_s=float(route_time_limit_s))
+    return finish_plan(net, profile, crews, state, bal, options=options, source=source, progress=progress)
 
 
 def _check(crews, seed, time_limit_s, tolerance, max_iterations) -> None:
@@ -192,11 +118,11 @@ def _check(crews, seed, time_limit_s, tolerance, max_iterations) -> None:
         raise InputError(f"balance iteration limit {max_iterations!r} is negative", "give 0 or more")
 
 
-def _check_reach(net: Network, sg, crews: list[FleetCrew], eligible: np.ndarray, rt: np.ndarray) -> None:
+def _check_reach(net: Network, sg, crews: list[Crew], eligible: np.ndarray, rt: np.ndarray) -> None:
     req = sg.required
     cut = np.flatnonzero(req & ~eligible.any(axis=0))
     if cut.size:
-        where = sorted({c.depot for c in crews})
+        where = sorted({int(c.depot_node) for c in crews})
         raise InputError(
             f"{cut.size} segment(s) that need service cannot be reached from any depot and back "
             f"(depot node(s) {', '.join(map(str, where))}): {describe_segment(net, cut)}",

@@ -14,7 +14,7 @@ lower bound on the longest shift and the gap to it, never a claim of optimality.
 Method
 ------
 1. The network of the day (see *Which networks are accepted*): the plan's
-   network, the ``close`` segments closed, the ``opened`` streets appended
+   network, the ``closed`` segments closed, the ``opened`` streets appended
    with new segment ids after the plan's (so every old id keeps its meaning).
 2. Release: segments of absent crews, added streets that need service,
    segments a crew can no longer reach and come back from, and every piece a
@@ -52,8 +52,9 @@ Method
    fits; with ``"overtime"`` the plan keeps all work and reports each crew's
    overtime; with ``None`` it only says which crews are over.
 9. Lower bound (:func:`crewcut.solve.postman.bounds.fleet_lower_bound`) for the crews at work,
-   the summary (:func:`crewcut.fleet.planner.fleet_summary`), the history and the
-   change report.
+   the summary (:func:`crewcut.fleet.assemble.fleet_summary`) and the history; steps 6,
+   7 and 9 are :mod:`crewcut.fleet.assemble`, shared with a fresh plan. What changed is
+   :func:`crewcut.reports.changes.change_report`.
 
 How many segments must change hands depends on the map: the work of an
 absent crew can only go to its neighbouring territories, and from there on
@@ -63,7 +64,7 @@ Which networks are accepted
 ---------------------------
 Let m and n be the numbers of segments and nodes in the plan file. A network
 is accepted when (a) it has at least m segments and n nodes; (b) its first m
-segments, with the closure flag of every ``close`` segment set back to open,
+segments, with the closure flag of every ``closed`` segment set back to open,
 have exactly the plan's fingerprint (:attr:`crewcut.solve.network.model.Network.fingerprint`:
 ends, lengths to the millimetre, one-way, closures, service, feature ids), and
 their service and deadhead minutes under the plan's profile are the ones the
@@ -76,77 +77,75 @@ with the segments that differ named.
 """
 from __future__ import annotations
 
-import hashlib
-from typing import Iterable, Sequence
+import dataclasses
 
 import numpy as np
 
-from crewcut.solve.network.model import Network, RawLine
-from crewcut.solve.profile import Profile
-from crewcut.solve.result import Route
+from crewcut.solve.network.model import Network
+from crewcut.solve.profile import Crew, Profile
 
-from crewcut.fleet.balancer import FleetState, balance
+from crewcut.fleet.assemble import finish_plan, route_and_balance
+from crewcut.fleet.balancer import FleetState
+from crewcut.fleet.changes import Changes
 from crewcut.fleet.day_crews import OVERFLOW_MODES, check_depots, check_params, crews_of_the_day
 from crewcut.fleet.day_network import network_of_the_day, resolve_closures
 from crewcut.fleet.executor import LocalRouter, RouteJob, Router, check_workers
 from crewcut.fleet.handover import BAND, grow_extra, grow_pool, pool_quotas, release_pieces, transfers
-from crewcut.fleet.planner import fleet_summary
 from crewcut.fleet.progress import ProgressFn
 from crewcut.fleet.streets import StreetGraph, build_street_graph, depot_travel, round_trips
 from crewcut.fleet.territories import DEADHEAD_ALLOWANCE, attach_leftovers, territories_of
-from crewcut.plans.planfile import CrewPlan, build_plan, dumps, route_from_section
+from crewcut.plans.model import Change, CrewPlan, DeferredSegment, History, Plan, ReplanLimits, recorded_crew
+from crewcut.plans.planfile import plan_digest
 from crewcut.plans.verify import profile_of_plan
-from crewcut.reports.changes import change_report
 
-__all__ = ["OVERFLOW_MODES", "rebalance_plan", "resolve_closures"]
+REPLAN_METHOD = ("rebalanced from a parent plan: released streets grown into neighbouring territories, "
+                 "boundary balancing with a stability charge; heuristic")
+
+__all__ = ["OVERFLOW_MODES", "Changes", "replan", "resolve_closures"]
 
 
-def rebalance_plan(plan: dict, net: Network, *, absent: Sequence[str] = (),
-                   add_crews: Sequence[tuple[str, float, float]] = (), close: Iterable = (),
-                   opened: Network | Sequence[RawLine] | None = None, shift_limits: dict[str, float] | None = None,
-                   stability: float = 0.5, overflow: str | None = None, tolerance: float = 0.045, seed: int = 0,
-                   workers: int | None = None, time_limit_s: float | None = None, max_iterations: int = 500,
-                   route_time_limit_s: float | None = None, progress: ProgressFn | None = None,
-                   router: Router | None = None, profile: Profile | None = None, parent: dict | None = None,
-                   source: str | None = None, network_name: str = "the network") -> tuple[dict, dict]:
-    """A new plan for the day's changes, starting from ``plan``; returns ``(new_plan, change_report)``.
+def replan(plan: Plan, net: Network, changes: Changes, *, profile: Profile | None = None, stability: float = 0.5,
+           overflow: str | None = None, tolerance: float = 0.045, seed: int = 0, workers: int | None = None,
+           time_limit_s: float | None = None, max_iterations: int = 500, route_time_limit_s: float | None = None,
+           progress: ProgressFn | None = None, router: Router | None = None, parent: dict | None = None,
+           source: str | None = None, network_name: str = "the network") -> Plan:
+    """A new plan for the day's changes, starting from ``plan``.
 
     Parameters
     ----------
-    plan: the parent plan document (:func:`crewcut.plans.planfile.read_plan`).
+    plan: the parent plan (:func:`crewcut.plans.planfile.read_plan`, or a plan made in memory).
     net: the street network: the plan's, possibly with the closures marked or the added streets appended
         (see the module notes for the exact rule).
-    absent: ids of crews not at work today.
-    add_crews: extra crews as ``(id, lon, lat)`` of their depot.
-    close: segments closed today: segment ids, or feature ids (see :func:`resolve_closures`).
-    opened: streets added today (a :class:`Network` or reader lines); they get new segment ids.
-    shift_limits: crew id -> today's shift limit in minutes (default: the plan's, or the profile's for extra crews).
+    changes: absent and extra crews, closed and opened streets, today's shift limits.
+    profile: the work profile (default: rebuilt from the plan's settings).
     stability: minutes of the longer shift a balancing move must save per segment it takes away from the
         crew that had it in the parent plan; 0 balances without regard to the parent plan.
     overflow: when the work does not fit the limits: ``"defer"`` (defer list), ``"overtime"``, or None.
     tolerance: the balancer stops at longest / mean share of shift limit <= 1 + tolerance.
     seed: seeds every route; same input and seed give the same plan (unless a time limit cuts the balancer short).
     workers, time_limit_s, max_iterations, route_time_limit_s: as for :func:`crewcut.fleet.planner.plan_fleet`.
-    profile: the work profile (default: rebuilt from the plan's settings).
+    router: a :class:`crewcut.fleet.executor.Router` to use instead of a local pool.
     parent: ``{"sha256": ..., "path": ...}`` of the parent plan file (default: the SHA-256 of the plan as
-        crewcut writes it).
+        crewcut writes it, no path).
     source, network_name: the network file, recorded in the new plan (default: the parent's) and named in messages.
     progress: ``progress(description, done, total)``; the library prints nothing.
+
+    Returns the new plan; :func:`crewcut.reports.changes.change_report` says what changed.
     """
     check_params(stability, overflow, tolerance, seed, time_limit_s)
     check_workers(workers)
     report = progress or (lambda *a: None)
     profile = profile or profile_of_plan(plan)
-    settings = plan.get("settings", {})
     if route_time_limit_s is None:
-        route_time_limit_s = float(settings.get("route_time_limit_s", 10.0))
-    closed = resolve_closures(plan, close)
-    today, added = network_of_the_day(plan, net, profile, closed, opened, name=network_name)
-    crews = crews_of_the_day(plan, today, profile, absent, add_crews, shift_limits)
+        recorded = plan.settings.options.route_time_limit_s
+        route_time_limit_s = 10.0 if recorded is None else recorded
+    closed = resolve_closures(plan, changes.closed)
+    today, added = network_of_the_day(plan, net, profile, closed, changes.opened, name=network_name)
+    crews = crews_of_the_day(plan, today, profile, changes)
     k, m = len(crews), today.n_segments
     report("network", 0, 1)
     sg = build_street_graph(today, profile)
-    depots = [c.depot for c in crews]
+    depots = [int(c.depot_node) for c in crews]
     uniq = sorted(set(depots))
     out, back = depot_travel(today, profile, uniq)
     rt = round_trips(today, sg, out, back)[np.array([uniq.index(d) for d in depots])]
@@ -154,23 +153,22 @@ def rebalance_plan(plan: dict, net: Network, *, absent: Sequence[str] = (),
     check_depots(today, crews, closed, eligible, sg)
     report("network", 1, 1)
 
-    old = plan["crews"]
-    new_of_old = {c.old: i for i, c in enumerate(crews) if c.old >= 0}
+    old: list[CrewPlan | None] = [plan.crew(c.id) for c in crews]  # the parent's record, None for extra crews
     orig = np.full(m, -1, np.int64)  # new index of the crew that had the segment in the parent plan
-    for oi, crew in enumerate(old):
-        if oi in new_of_old:
-            orig[np.asarray(crew["territory"], np.int64)] = new_of_old[oi]
+    for i, o in enumerate(old):
+        if o is not None:
+            orig[np.asarray(o.territory, np.int64)] = i
     owner = np.where(sg.required, orig, -1)
     rows = np.flatnonzero(owner >= 0)
     owner[rows[~eligible[owner[rows], rows]]] = -1  # streets a crew can no longer reach and leave
     release_pieces(sg, owner, k)
     limits = np.array([c.shift_limit_min for c in crews], float)
     est_rate = np.full(k, 1.0 + DEADHEAD_ALLOWANCE)
-    for i, c in enumerate(crews):
-        if c.old >= 0:
-            w = float(sg.work[np.asarray(old[c.old]["territory"], np.int64)].sum())
+    for i, o in enumerate(old):
+        if o is not None:
+            w = float(sg.work[np.asarray(o.territory, np.int64)].sum())
             if w > 0:
-                est_rate[i] = max(1.0, float(old[c.old]["shift_min"]) / w)
+                est_rate[i] = max(1.0, float(o.shift_min) / w)
     empty = [i for i in range(k) if not (owner == i).any()]
     total_est = float((sg.work[sg.required] * (1.0 + DEADHEAD_ALLOWANCE)).sum())
     for i in empty:  # extra crews, and crews whose streets all closed or went out of reach
@@ -196,87 +194,50 @@ def rebalance_plan(plan: dict, net: Network, *, absent: Sequence[str] = (),
     if own_router:
         router = LocalRouter(today, profile, workers=workers, time_limit_s=route_time_limit_s)
     try:
-        routes: list[Route | None] = [None] * k
         terr = territories_of(owner, k)
-        jobs, which = [], []
-        for i, c in enumerate(crews):
-            if c.old >= 0 and _keeps_route(old[c.old], terr[i], c.depot, today):
-                routes[i] = route_from_section(old[c.old]["routes"][0], c.depot)
-            else:
-                jobs.append(RouteJob.of(c.depot, terr[i], seed))
-                which.append(i)
-        report("routing territories", 0, len(jobs))
-        for i, r in zip(which, router.route_many(jobs)):
-            routes[i] = r
-        report("routing territories", len(jobs), len(jobs))
-        state = FleetState(owner=owner, routes=list(routes), depots=depots, limits=limits)
+        kept = {i: o.routes[0] for i, o in enumerate(old)
+                if o is not None and _keeps_route(o, terr[i], depots[i], today)}
 
         def move_cost(c: int, n: int, give: np.ndarray, take: np.ndarray) -> float:
             away = (int(np.count_nonzero(orig[give] == c)) - int(np.count_nonzero(orig[give] == n))
                     + int(np.count_nonzero(orig[take] == n)) - int(np.count_nonzero(orig[take] == c)))
             return stability * away / float(limits[c])
 
-        bal = balance(state, sg, router, eligible, seed=seed, tolerance=tolerance, max_iterations=max_iterations,
-                      time_limit_s=time_limit_s, progress=progress,
-                      move_cost=move_cost if stability > 0 else None)
+        state, bal = route_and_balance(router, sg, eligible, crews, owner, seed=seed, tolerance=tolerance,
+                                       max_iterations=max_iterations, time_limit_s=time_limit_s, progress=progress,
+                                       move_cost=move_cost if stability > 0 else None, kept=kept)
         deferred = (_defer(state, sg, router, today, profile, rt, seed, [c.id for c in crews])
-                    if overflow == "defer" else [])
+                    if overflow == "defer" else None)
     finally:
         if own_router:
             router.close()
 
-    report("lower bound", 0, 1)
-    from crewcut.solve.postman.bounds import fleet_lower_bound
-
-    served = np.flatnonzero(state.owner >= 0)
-    lb = float(fleet_lower_bound(today, profile, depots, k, served.tolist() if deferred else None))
-    report("lower bound", 1, 1)
-    terr = territories_of(state.owner, k)
-    plans = [CrewPlan(id=c.id, depot_node=c.depot, shift_limit_min=c.shift_limit_min, territory=terr[i].tolist(),
-                      routes=[state.routes[i]]) for i, c in enumerate(crews)]
-    summary = fleet_summary(plans, lb, bal)
-    summary["method"] = ("rebalanced from a parent plan: released streets grown into neighbouring territories, "
-                         "boundary balancing with a stability charge; heuristic")
-    if deferred:
-        summary["deferred_segments"] = len(deferred)
-        summary["deferred_min"] = float(sum(d["work_min"] for d in deferred))
-    new_settings = {k_: v for k_, v in settings.items() if k_ != "profile"}
-    new_settings.update({
-        "seed": int(seed),
-        "crews": [{"id": c.id, "depot_node": int(c.depot), "shift_limit_min": float(c.shift_limit_min)}
-                  for c in crews],
-        "rebalance": {"stability": float(stability), "overflow": overflow, "tolerance": float(tolerance),
-                      "time_limit_s": None if time_limit_s is None else float(time_limit_s),
-                         "max_iterations": int(max_iterations)},
-        "route_time_limit_s": float(route_time_limit_s)})
-    history = _history(plan, parent, crews, absent, add_crews, shift_limits, closed, added, today, stability,
-                       overflow)
-    source = str(plan["network"].get("source", "")) if source is None else source
-    new_plan = build_plan(today, profile, plans, source=source, settings=new_settings, summary=summary,
-                          history=history)
-    if overflow == "defer":
-        new_plan["deferred"] = deferred
-    rep = change_report(plan, new_plan)
-    if overflow == "overtime":
-        rep["overtime"] = [{"crew": o["crew"], "overtime_min": o["over_min"]} for o in summary["over_limit"]]
-    return new_plan, rep
+    options = dataclasses.replace(  # the parent's options, with the replan's own
+        plan.settings.options, seed=int(seed), crews=tuple(recorded_crew(c) for c in crews),
+        rebalance=ReplanLimits(float(stability), overflow, float(tolerance),
+                               None if time_limit_s is None else float(time_limit_s), int(max_iterations)),
+        route_time_limit_s=float(route_time_limit_s))
+    history = _history(plan, parent, crews, changes, closed, added, today, stability, overflow)
+    source = plan.network.source if source is None else source
+    return finish_plan(today, profile, crews, state, bal, options=options, source=source, method=REPLAN_METHOD,
+                       history=history, deferred=deferred, progress=progress)
 
 
-def _keeps_route(old_crew: dict, terr: np.ndarray, depot: int, today: Network) -> bool:
+def _keeps_route(old: CrewPlan, terr: np.ndarray, depot: int, today: Network) -> bool:
     """The parent's route still fits: same depot, same territory, no street on it closed today."""
-    if int(old_crew["depot_node"]) != depot or len(old_crew.get("routes", [])) != 1:
+    if old.depot_node != depot or len(old.routes) != 1:
         return False
-    if sorted(int(s) for s in old_crew["territory"]) != terr.tolist():
+    if sorted(old.territory) != terr.tolist():
         return False
-    used = np.array([int(t["segment"]) for t in old_crew["routes"][0]["traversals"]], np.int64)
+    used = np.array([t.segment for t in old.routes[0].traversals], np.int64)
     return not bool(today.seg_closed[used].any()) if used.size else True
 
 
 def _defer(state: FleetState, sg: StreetGraph, router: Router, today: Network, profile: Profile, rt: np.ndarray,
-           seed: int, ids: list[str]) -> list[dict]:
+           seed: int, ids: list[str]) -> list[DeferredSegment]:
     """Take the lowest-priority segments off each crew over its limit until its shift fits; the defer list."""
     prio = np.array([profile.priority_for(c) for c in today.seg_class], np.int64)
-    out: list[dict] = []
+    out: list[DeferredSegment] = []
     for c in range(len(state.routes)):
         for _attempt in range(12):
             over = state.routes[c].totals.total_min - state.limits[c]
@@ -291,38 +252,36 @@ def _defer(state: FleetState, sg: StreetGraph, router: Router, today: Network, p
             take = order[:min(n, order.size)]
             state.owner[take] = -1
             for s in take.tolist():
-                out.append({"segment": int(s), "source_id": today.seg_source[s], "name": today.seg_name[s],
-                            "class": today.seg_class[s], "priority": int(prio[s]), "crew": ids[c],
-                            "work_min": float(sg.work[s]), "length_m": float(today.seg_length[s])})
+                out.append(DeferredSegment(int(s), today.seg_source[s], today.seg_name[s], today.seg_class[s],
+                                           int(prio[s]), ids[c], float(sg.work[s]), float(today.seg_length[s])))
             state.routes[c] = router.route_many([RouteJob.of(state.depots[c], state.territory(c), seed)])[0]
             state.version[c] += 1
-    out.sort(key=lambda d: (d["priority"], d["segment"]))
+    out.sort(key=lambda d: (d.priority, d.segment))
     return out
 
 
-def _history(plan, parent, crews, absent, add_crews, shift_limits, closed, added, today, stability, overflow) -> dict:
+def _history(plan: Plan, parent: dict | None, crews: list[Crew], changes: Changes, closed: np.ndarray,
+             added: np.ndarray, today: Network, stability: float, overflow: str | None) -> History:
     if parent is None:
-        parent = {"sha256": hashlib.sha256(dumps(plan).encode("utf-8")).hexdigest(), "path": None}
-    changes: list[dict] = []
-    for a in sorted(set(str(x) for x in absent)):
-        changes.append({"kind": "absent", "crew": a})
+        parent = {"sha256": plan_digest(plan), "path": None}
+    out: list[Change] = [Change("absent", crew=a) for a in sorted(set(str(x) for x in changes.absent))]
     by_id = {c.id: c for c in crews}
-    for cid, lon, lat in add_crews:
-        changes.append({"kind": "extra_crew", "crew": str(cid).strip(), "lon": float(lon), "lat": float(lat),
-                        "depot_node": int(by_id[str(cid).strip()].depot)})
-    old_limits = {str(c["id"]): float(c["shift_limit_min"]) for c in plan["crews"]}
-    for cid in sorted(shift_limits or {}):
-        changes.append({"kind": "shift_limit", "crew": cid, "from_min": old_limits.get(cid),
-                        "to_min": float(shift_limits[cid])})
+    for e in changes.added_crews:
+        c = by_id[str(e.id).strip()]
+        node = int(c.depot_node)
+        lon, lat = e.depot_lonlat if e.depot_lonlat is not None else (today.node_lon[node], today.node_lat[node])
+        out.append(Change("extra_crew", crew=c.id, lon=float(lon), lat=float(lat), depot_node=node))
+    old_limits = {c.id: c.shift_limit_min for c in plan.crews}
+    limits = changes.shift_limits or {}
+    for cid in sorted(limits):
+        out.append(Change("shift_limit", crew=cid, from_min=old_limits.get(cid), to_min=float(limits[cid])))
     if closed.size:
-        changes.append({"kind": "closed", "segments": closed.tolist(),
-                        "features": sorted({today.seg_source[int(s)] for s in closed})})
+        out.append(Change("closed", segments=tuple(closed.tolist()),
+                          features=tuple(sorted({today.seg_source[int(s)] for s in closed}))))
     if added.size:
-        changes.append({"kind": "added_streets", "segments": added.tolist(),
-                        "features": sorted({today.seg_source[int(s)] for s in added})})
-    prev = plan.get("history") or {}
-    return {"parent": parent["sha256"], "parent_path": parent.get("path"),
-            "parent_fingerprint": plan["network"]["fingerprint"],
-            "generation": int(prev.get("generation", 0)) + 1,
-            "lineage": list(prev.get("lineage", [])) + [parent["sha256"]],
-            "changes": changes, "stability": float(stability), "overflow": overflow}
+        out.append(Change("added_streets", segments=tuple(added.tolist()),
+                          features=tuple(sorted({today.seg_source[int(s)] for s in added}))))
+    prev = plan.history
+    return History(parent=parent["sha256"], changes=tuple(out), parent_path=parent.get("path"),
+                   parent_fingerprint=plan.network.fingerprint, generation=(prev.generation or 0) + 1,
+                   lineage=tuple(prev.lineage) + (parent["sha256"],), stability=float(stability), overflow=overflow)

@@ -1,1 +1,1 @@
-"""The plan: its file format (read, write, recognise), a checked read-only view, and independent verification."""
+"""The plan: its typed model, its file format (read, write, recognise), a view for the reports, and independent verification."""

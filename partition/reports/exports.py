@@ -22,7 +22,9 @@ import io
 import json
 from xml.sax.saxutils import escape
 
-from crewcut.plans.view import PlanView
+from crewcut.plans.model import Plan, route_id
+from crewcut.plans.view import PlanView, view
+from crewcut.solve.result import Route
 
 FORMATS = ("geojson", "gpx", "csv")
 
@@ -31,43 +33,45 @@ def _pos(p: list[float]) -> list[float]:
     return [round(p[0], 7), round(p[1], 7)]
 
 
-def _totals(pv: PlanView, route: dict) -> dict:
-    steps = pv.steps(route)
+def _totals(route: Route) -> dict:
+    steps = route.traversals
     return {"service_km": round(sum(s.metres for s in steps if s.service) / 1000.0, 4),
             "deadhead_km": round(sum(s.metres for s in steps if not s.service) / 1000.0, 4),
             "total_min": round(sum(s.minutes + s.turn_minutes for s in steps), 4),
             "traversals": len(steps)}
 
 
-def to_geojson(pv: PlanView) -> str:
+def to_geojson(pv: Plan | PlanView) -> str:
+    pv = view(pv)
     pv.need_geometry()
     feats = []
     for c in pv.crews:
-        terr = sorted(c["territory"])
+        terr = sorted(c.territory)
         geom = None
         if terr:
             geom = {"type": "MultiLineString", "coordinates": [[_pos(p) for p in pv.seg_coords(s)] for s in terr]}
         feats.append({"type": "Feature", "geometry": geom, "properties": {
-            "kind": "territory", "crew": c["id"], "segments": len(terr),
-            "length_m": round(sum(float(pv.segments[s]["length_m"]) for s in terr), 3),
-            "depot_node": c["depot_node"], "shift_limit_min": c.get("shift_limit_min")}})
+            "kind": "territory", "crew": c.id, "segments": len(terr),
+            "length_m": round(sum(float(pv.segments[s].length_m) for s in terr), 3),
+            "depot_node": c.depot_node, "shift_limit_min": c.shift_limit_min}})
     for c in pv.crews:
-        for r in c["routes"]:
+        for i, r in enumerate(c.routes):
             line = [_pos(p) for p in pv.route_coords(r)]
             geom = {"type": "LineString", "coordinates": line} if len(line) >= 2 else None
             feats.append({"type": "Feature", "geometry": geom, "properties": {
-                "kind": "route", "crew": c["id"], "route": str(r.get("id", "")), **_totals(pv, r)}})
+                "kind": "route", "crew": c.id, "route": route_id(i), **_totals(r)}})
     doc = {"type": "FeatureCollection", "features": feats}
     return json.dumps(doc, ensure_ascii=False, separators=(",", ":")) + "\n"
 
 
-def to_gpx(pv: PlanView) -> str:
+def to_gpx(pv: Plan | PlanView) -> str:
     """GPX 1.1: each crew's depot as a waypoint and each route as a track.
 
     A track, not a GPX route: navigation devices re-plan the way between route
     points and could cut through streets the crew must serve; a track is
     followed as drawn.
     """
+    pv = view(pv)
     pv.need_geometry()
     out = ['<?xml version="1.0" encoding="UTF-8"?>',
            '<gpx version="1.1" creator="crewcut" xmlns="http://www.topografix.com/GPX/1/1" '
@@ -75,14 +79,14 @@ def to_gpx(pv: PlanView) -> str:
            'xsi:schemaLocation="http://www.topografix.com/GPX/1/1 http://www.topografix.com/GPX/1/1/gpx.xsd">',
            f"<metadata><name>{escape(pv.title)}</name></metadata>"]
     for c in pv.crews:  # GPX 1.1 puts every wpt before the first trk
-        at = pv.node_lonlat(int(c["depot_node"]))
+        at = pv.node_lonlat(c.depot_node)
         if at is not None:
-            out.append(f'<wpt lat="{at[1]:.7f}" lon="{at[0]:.7f}"><name>{escape(c["id"])} depot</name></wpt>')
+            out.append(f'<wpt lat="{at[1]:.7f}" lon="{at[0]:.7f}"><name>{escape(c.id)} depot</name></wpt>')
     for c in pv.crews:
-        for r in c["routes"]:
-            t = _totals(pv, r)
+        for i, r in enumerate(c.routes):
+            t = _totals(r)
             out.append("<trk>")
-            out.append(f"<name>{escape(c['id'])} {escape(str(r.get('id', '')))}</name>")
+            out.append(f"<name>{escape(c.id)} {escape(route_id(i))}</name>")
             desc = f"serve {t['service_km']:.2f} km, drive {t['deadhead_km']:.2f} km, {t['total_min']:.0f} min"
             out.append(f"<desc>{escape(desc)}</desc>")
             out.append("<trkseg>")
@@ -94,28 +98,27 @@ def to_gpx(pv: PlanView) -> str:
     return "\n".join(out) + "\n"
 
 
-def to_csv(pv: PlanView) -> str:
+def to_csv(pv: Plan | PlanView) -> str:
+    pv = view(pv)
     crews_of: dict[int, list[str]] = {}
     for c in pv.crews:
-        for s in c["territory"]:
-            crews_of.setdefault(s, []).append(c["id"])
+        for s in c.territory:
+            crews_of.setdefault(s, []).append(c.id)
     served = [0] * len(pv.segments)
     for c in pv.crews:
-        for r in c["routes"]:
-            for st in pv.steps(r):
+        for r in c.routes:
+            for st in r.traversals:
                 served[st.segment] += st.service
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(["segment_id", "source_id", "name", "crew", "passes_required", "passes_served"])
     for s in pv.segments:
-        p = s.get("passes") or {}
-        req = int(p.get("forward", 0)) + int(p.get("backward", 0)) + int(p.get("either", 0))
-        w.writerow([s["id"], s.get("source_id", ""), s.get("name", ""), ";".join(sorted(crews_of.get(s["id"], []))),
-                    req, served[s["id"]]])
+        w.writerow([s.id, s.source_id, s.name, ";".join(sorted(crews_of.get(s.id, []))), s.passes.total,
+                    served[s.id]])
     return buf.getvalue()
 
 
-def export(pv: PlanView, form: str) -> str:
+def export(pv: Plan | PlanView, form: str) -> str:
     if form not in FORMATS:
         raise ValueError(f"unknown export format {form!r}; allowed: {', '.join(FORMATS)}")
     return {"geojson": to_geojson, "gpx": to_gpx, "csv": to_csv}[form](pv)

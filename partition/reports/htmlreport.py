@@ -9,7 +9,8 @@ from __future__ import annotations
 
 import html
 
-from crewcut.plans.view import PlanView
+from crewcut.plans.model import Plan
+from crewcut.plans.view import PlanView, view
 from crewcut.reports.sheets import crew_sheets, html_document, to_html_section
 from crewcut.reports.svgmap import crew_colours, route_svg, territory_svg
 from crewcut.reports.workload import COLUMNS, fmt, summary_lines, workload_rows
@@ -58,16 +59,17 @@ def _load_table(pv: PlanView) -> str:
             f'<ul class="notes">{notes}</ul>')
 
 
-def report_html(pv: PlanView) -> str:
+def report_html(pv: Plan | PlanView) -> str:
     """The whole report as one HTML document (a string; same plan, same bytes)."""
+    pv = view(pv)
     e = html.escape
     colours = crew_colours(pv)
-    n_req = sum(1 for s in pv.segments if sum((s.get("passes") or {}).values()) > 0)
+    n_req = sum(1 for s in pv.segments if s.passes.total > 0)
     parts = [f"<h1>Street work plan &ndash; {e(pv.title)}</h1>",
              f'<p class="lede">{len(pv.crews)} crews, {n_req} segments to serve, '
              f'{pv.traffic}-hand traffic.</p>']
     if pv.crews:
-        parts.append('<nav class="toc">' + "".join(f'<a href="#crew-{i}">{e(c["id"])}</a>'
+        parts.append('<nav class="toc">' + "".join(f'<a href="#crew-{i}">{e(c.id)}</a>'
                                                  for i, c in enumerate(pv.crews)) + "</nav>")
     parts.append("<h2>Workload per crew</h2>")
     parts.append(_load_table(pv))
@@ -79,7 +81,7 @@ def report_html(pv: PlanView) -> str:
     for i, c in enumerate(pv.crews):
         parts.append(f'<div class="crewpage" id="crew-{i}">')
         fig = f"<figure>{route_svg(pv, c, standalone=False)}</figure>" if pv.has_geometry else ""
-        for k, s in enumerate(x for x in sheets if x.crew == c["id"]):
-            parts.append(to_html_section(s, colours[c["id"]], extra=fig if k == 0 else ""))
+        for k, s in enumerate(x for x in sheets if x.crew == c.id):
+            parts.append(to_html_section(s, colours[c.id], extra=fig if k == 0 else ""))
         parts.append("</div>")
     return html_document(f"Street work plan - {pv.title}", "\n".join(parts), REPORT_CSS)

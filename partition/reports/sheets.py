@@ -19,7 +19,9 @@ import math
 import re
 from dataclasses import dataclass, field
 
-from crewcut.plans.view import PlanView
+from crewcut.plans.model import CrewPlan, Plan, route_id
+from crewcut.plans.view import PlanView, view
+from crewcut.solve.result import Route
 
 UNNAMED = "unnamed street"
 SHEET_FORMATS = ("txt", "md", "html")
@@ -76,29 +78,34 @@ def turn_words(kind: str, traffic: str) -> str:
     return {"start": "leave depot", "straight": "straight on", "u_turn": "U-turn"}.get(kind, "turn")
 
 
-def _heading(pv: PlanView, route: dict, idx: list[int]) -> str:
+def _heading(pv: PlanView, route: Route, idx: list[int]) -> str:
     if not pv.has_geometry:
         return ""
-    steps = route["traversals"]
-    first = pv.seg_coords(steps[idx[0]]["segment"], steps[idx[0]]["from"])
-    last = pv.seg_coords(steps[idx[-1]]["segment"], steps[idx[-1]]["from"])
+    steps = route.traversals
+    first = pv.seg_coords(steps[idx[0]].segment, steps[idx[0]].from_node)
+    last = pv.seg_coords(steps[idx[-1]].segment, steps[idx[-1]].from_node)
     a, b = first[0], last[-1]
     if a == b:
         b = first[-1]
     return compass(initial_bearing(a, b))
 
 
-def route_sheet(pv: PlanView, crew: dict, route: dict) -> Sheet:
-    """The sheet of one route of one crew (see the module notes for the merging rule)."""
-    steps = pv.steps(route)
+def route_sheet(pv: Plan | PlanView, crew: CrewPlan, route: Route, name: str | None = None) -> Sheet:
+    """The sheet of one route of one crew (see the module notes for the merging rule).
+
+    ``name``: the route's id on the sheet (default: its id in the plan file, by position).
+    """
+    pv = view(pv)
+    steps = list(route.traversals)
+    rname = name if name is not None else route_id(next((i for i, r in enumerate(crew.routes) if r is route), 0))
     lines: list[SheetLine] = []
-    depot = crew["depot_node"]
+    depot = crew.depot_node
     depot_name = pv.node_name(depot)
     lines.append(SheetLine("start", street=f"start at the depot, {depot_name}"))
     elapsed = 0.0
     cur: SheetLine | None = None
     for i, st in enumerate(steps):
-        name = pv.segments[st.segment].get("name") or ""
+        name = pv.segments[st.segment].name or ""
         mode = "serve" if st.service else "drive"
         if cur is not None and name and cur.street == name and cur.mode == mode and st.turn != "u_turn":
             cur.traversals.append(i)
@@ -115,16 +122,17 @@ def route_sheet(pv: PlanView, crew: dict, route: dict) -> Sheet:
     end_ok = not steps or steps[-1].to_node == depot
     lines.append(SheetLine("end", street=("back at the depot, " if end_ok else "route ends away from the depot, ")
                            + (depot_name if end_ok else pv.node_name(steps[-1].to_node)), elapsed_min=elapsed))
-    totals = route.get("totals") or {}
-    return Sheet(crew=crew["id"], route=str(route.get("id", "route")), depot=depot_name,
+    return Sheet(crew=crew.id, route=rname, depot=depot_name,
                  depot_lonlat=pv.node_lonlat(depot), lines=lines,
-                 total_min=float(totals.get("total_min", elapsed)),
+                 total_min=float(route.totals.total_min),
                  service_km=sum(s.metres for s in steps if s.service) / 1000.0,
                  deadhead_km=sum(s.metres for s in steps if not s.service) / 1000.0)
 
 
-def crew_sheets(pv: PlanView, crews: list[dict]) -> list[Sheet]:
-    return [route_sheet(pv, c, r) for c in crews for r in c["routes"]]
+def crew_sheets(pv: Plan | PlanView, crews: list[CrewPlan] | tuple[CrewPlan, ...]) -> list[Sheet]:
+    """The sheets of every route of ``crews``, crew by crew."""
+    pv = view(pv)
+    return [route_sheet(pv, c, r, route_id(i)) for c in crews for i, r in enumerate(c.routes)]
 
 
 # ------------------------------------------------------------------ rendering

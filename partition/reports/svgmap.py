@@ -24,7 +24,8 @@ import math
 
 import numpy as np
 
-from crewcut.plans.view import PlanView
+from crewcut.plans.model import CrewPlan, Plan
+from crewcut.plans.view import PlanView, view
 
 PALETTE = ("#2255aa", "#ff7711", "#66bbff", "#884411", "#9900ff", "#ddaa77", "#774477", "#8877ff")
 DASHES = ("", "10 4", "3 3", "12 3 3 3")  # added to repeated colours beyond len(PALETTE) crews
@@ -38,13 +39,13 @@ LEGEND_W = 230
 MARGIN = 24
 
 
-def crew_colours(pv: PlanView) -> dict[str, str]:
+def crew_colours(pv: Plan | PlanView) -> dict[str, str]:
     """Crew id -> colour, by the crew's position in the plan."""
-    return {c["id"]: PALETTE[i % len(PALETTE)] for i, c in enumerate(pv.crews)}
+    return {c.id: PALETTE[i % len(PALETTE)] for i, c in enumerate(pv.crews)}
 
 
-def crew_dash(pv: PlanView) -> dict[str, str]:
-    return {c["id"]: DASHES[(i // len(PALETTE)) % len(DASHES)] for i, c in enumerate(pv.crews)}
+def crew_dash(pv: Plan | PlanView) -> dict[str, str]:
+    return {c.id: DASHES[(i // len(PALETTE)) % len(DASHES)] for i, c in enumerate(pv.crews)}
 
 
 class _Frame:
@@ -122,10 +123,10 @@ def _arrow(x: float, y: float, ang: float, size: float, fill: str) -> str:
     return f'<polygon points="{xy}" fill="{fill}" stroke="#ffffff" stroke-width="0.7"/>'
 
 
-def _depot_marks(pv: PlanView, fr: _Frame, crews: list[dict]) -> list[str]:
+def _depot_marks(pv: PlanView, fr: _Frame, crews: list[CrewPlan] | tuple[CrewPlan, ...]) -> list[str]:
     by_node: dict[int, list[str]] = {}
     for c in crews:
-        by_node.setdefault(c["depot_node"], []).append(c["id"])
+        by_node.setdefault(c.depot_node, []).append(c.id)
     out = []
     for node in sorted(by_node):
         x, y = fr.node_px[node]
@@ -164,22 +165,23 @@ def _legend_row(y: float, swatch: str, text: str) -> str:
             f'<text x="34" y="10" font-size="12" fill="{INK}">{html.escape(text)}</text></g>')
 
 
-def territory_svg(pv: PlanView, standalone: bool = True) -> str:
+def territory_svg(pv: Plan | PlanView, standalone: bool = True) -> str:
     """All crews' territories in their colours, depots marked, a legend with crew ids and shift hours."""
+    pv = view(pv)
     fr = _Frame(pv)
     colours, dashes = crew_colours(pv), crew_dash(pv)
     owner: dict[int, str] = {}
     for c in pv.crews:
-        for s in c["territory"]:
-            owner.setdefault(s, c["id"])
+        for s in c.territory:
+            owner.setdefault(s, c.id)
     body = [f'<g fill="none" stroke="{BACKGROUND}" stroke-width="1.6" stroke-linecap="round">']
     body += [f'<path d="{_path(fr.seg(s))}"/>' for s in range(len(pv.segments)) if s not in owner]
     body.append("</g>")
     for c in pv.crews:
-        dash = f' stroke-dasharray="{dashes[c["id"]]}"' if dashes[c["id"]] else ""
-        body.append(f'<g fill="none" stroke="{colours[c["id"]]}" stroke-width="4.5" stroke-linecap="round"'
-                    f'{dash} data-crew="{html.escape(c["id"])}">')
-        body += [f'<path d="{_path(fr.seg(s))}"/>' for s in sorted(c["territory"]) if owner.get(s) == c["id"]]
+        dash = f' stroke-dasharray="{dashes[c.id]}"' if dashes[c.id] else ""
+        body.append(f'<g fill="none" stroke="{colours[c.id]}" stroke-width="4.5" stroke-linecap="round"'
+                    f'{dash} data-crew="{html.escape(c.id)}">')
+        body += [f'<path d="{_path(fr.seg(s))}"/>' for s in sorted(c.territory) if owner.get(s) == c.id]
         body.append("</g>")
     body += _depot_marks(pv, fr, pv.crews)
     body.append(_scale_bar(fr))
@@ -189,12 +191,12 @@ def territory_svg(pv: PlanView, standalone: bool = True) -> str:
     body.append(f'<text x="{WIDTH + 8}" y="{y - 8:.1f}" font-size="12" font-weight="bold" fill="{INK}">'
                 f'crew: shift (h)</text>')
     for c in pv.crews:
-        r = rows[c["id"]]
-        dash = f' stroke-dasharray="{dashes[c["id"]]}"' if dashes[c["id"]] else ""
-        sw = (f'<rect x="0" y="0" width="26" height="13" fill="{colours[c["id"]]}"/>' if not dash else
-              f'<path d="M0,6.5 H26" stroke="{colours[c["id"]]}" stroke-width="6"{dash}/>')
+        r = rows[c.id]
+        dash = f' stroke-dasharray="{dashes[c.id]}"' if dashes[c.id] else ""
+        sw = (f'<rect x="0" y="0" width="26" height="13" fill="{colours[c.id]}"/>' if not dash else
+              f'<path d="M0,6.5 H26" stroke="{colours[c.id]}" stroke-width="6"{dash}/>')
         over = "  over limit" if r["over_limit_min"] > 0 else ""
-        body.append(_legend_row(y, sw, f'{c["id"]}: {r["shift_h"]:.2f} h{over}'))
+        body.append(_legend_row(y, sw, f'{c.id}: {r["shift_h"]:.2f} h{over}'))
         y += 20
     y += 6
     body.append(_legend_row(y, f'<path d="M0,6.5 H26" stroke="{BACKGROUND}" stroke-width="2"/>', "no crew (not served)"))
@@ -204,22 +206,23 @@ def territory_svg(pv: PlanView, standalone: bool = True) -> str:
     return _svg(WIDTH + LEGEND_W, height, body, f"Territories - {len(pv.crews)} crews", standalone)
 
 
-def route_svg(pv: PlanView, crew: dict, standalone: bool = True) -> str:
+def route_svg(pv: Plan | PlanView, crew: CrewPlan, standalone: bool = True) -> str:
     """One crew's routes: service in the crew colour with arrows, deadhead thin, dashed and grey."""
-    used = sorted({int(s) for s in crew["territory"]}
-                  | {st.segment for r in crew["routes"] for st in pv.steps(r)})
+    pv = view(pv)
+    used = sorted({int(s) for s in crew.territory}
+                  | {st.segment for r in crew.routes for st in r.traversals})
     fr = _Frame(pv, fit=used)  # zoomed to the crew's own streets
-    colour = crew_colours(pv)[crew["id"]]
+    colour = crew_colours(pv)[crew.id]
     side = 2.6 if pv.traffic == "right" else -2.6  # draw on the driving side of the centre line
     body = [f'<g fill="none" stroke="{BACKGROUND}" stroke-width="1.4" stroke-linecap="round">']
     body += [f'<path d="{_path(fr.seg(s))}"/>' for s in range(len(pv.segments)) if fr.visible[s]]
     body.append("</g>")
     dead, serve, arrows = [], [], []
     n_serve = n_dead = 0
-    for route in crew["routes"]:
-        for st in pv.steps(route):
+    for route in crew.routes:
+        for st in route.traversals:
             seg = pv.segments[st.segment]
-            p = _offset(fr.seg(st.segment, reverse=st.from_node != seg["from"]), side)
+            p = _offset(fr.seg(st.segment, reverse=st.from_node != seg.from_node), side)
             if st.service:
                 serve.append(f'<path d="{_path(p)}"/>')
                 n_serve += 1
@@ -251,6 +254,6 @@ def route_svg(pv: PlanView, crew: dict, standalone: bool = True) -> str:
                             "other streets"))
     body.append(_legend_row(y + 80, f'<rect x="6" y="0" width="13" height="13" fill="#ffffff" stroke="{INK}" '
                                     f'stroke-width="2.5"/>', "depot (start and end)"))
-    shift = sum(st.minutes + st.turn_minutes for r in crew["routes"] for st in pv.steps(r))
+    shift = sum(st.minutes + st.turn_minutes for r in crew.routes for st in r.traversals)
     body.append(_legend_row(y + 108, "", f"shift {shift / 60:.2f} h"))
-    return _svg(WIDTH + LEGEND_W, max(fr.height, 240), body, f"Route - {crew['id']}", standalone)
+    return _svg(WIDTH + LEGEND_W, max(fr.height, 240), body, f"Route - {crew.id}", standalone)

@@ -18,6 +18,7 @@ import csv
 import io
 import json
 
+from crewcut.plans.model import CrewPlan, Plan
 from crewcut.plans.view import PlanView, view
 
 # (key, header with unit, justify) in display order.
@@ -44,11 +45,11 @@ def _pct(a: float, b: float) -> float:
     return 0.0 if b <= 0 else 100.0 * a / b
 
 
-def _crew_row(pv: PlanView, crew: dict) -> dict:
+def _crew_row(pv: PlanView, crew: CrewPlan) -> dict:
     s_m = d_m = s_min = d_min = turn_min = 0.0
     u = across = 0
-    for route in crew["routes"]:
-        for st in pv.steps(route):
+    for route in crew.routes:
+        for st in route.traversals:
             if st.service:
                 s_m += st.metres
                 s_min += st.minutes
@@ -59,12 +60,12 @@ def _crew_row(pv: PlanView, crew: dict) -> dict:
             u += st.turn == "u_turn"
             across += st.turn == "across_traffic"
     shift = s_min + d_min + turn_min
-    limit = float(crew.get("shift_limit_min") or 0.0)
+    limit = float(crew.shift_limit_min or 0.0)
     return {
         "row": "crew",
-        "crew": crew["id"],
-        "depot": pv.node_name(crew["depot_node"]),
-        "segments": len(crew["territory"]),
+        "crew": crew.id,
+        "depot": pv.node_name(crew.depot_node),
+        "segments": len(crew.territory),
         "service_km": s_m / 1000.0,
         "deadhead_km": d_m / 1000.0,
         "deadhead_pct": _pct(d_m, s_m + d_m),
@@ -79,12 +80,12 @@ def _crew_row(pv: PlanView, crew: dict) -> dict:
     }
 
 
-def workload_rows(plan: dict) -> list[dict]:
+def workload_rows(plan: Plan | PlanView) -> list[dict]:
     """One dict per crew (plan order) and a last row with ``"row": "total"``.
 
     Keys carry their unit (``_km``, ``_h``, ``_pct``, ``_min``); counts are ints.
     """
-    pv = plan if isinstance(plan, PlanView) else view(plan)
+    pv = view(plan)
     rows = [_crew_row(pv, c) for c in pv.crews]
     tot = {"row": "total", "crew": "all crews", "depot": ""}
     for key in ("segments", "service_km", "deadhead_km", "service_h", "driving_h", "u_turns", "across_turns",
@@ -95,16 +96,16 @@ def workload_rows(plan: dict) -> list[dict]:
     return rows + [{k: tot[k] for k in rows[0]} if rows else tot]
 
 
-def workload_summary(plan: dict) -> dict:
+def workload_summary(plan: Plan | PlanView) -> dict:
     """Longest and mean shift, longest / mean, the recorded lower bound and gap, crews over their limit."""
-    pv = plan if isinstance(plan, PlanView) else view(plan)
+    pv = view(plan)
     rows = workload_rows(pv)[:-1]
     shifts = [r["shift_h"] * 60.0 for r in rows]
     longest = max(shifts, default=0.0)
     mean = sum(shifts) / len(shifts) if shifts else 0.0
-    lb = pv.summary.get("lower_bound_min")
+    lb = getattr(pv.summary, "lower_bound_min", None)
     lb = float(lb) if isinstance(lb, (int, float)) and lb > 0 else None
-    gap = pv.summary.get("gap")
+    gap = getattr(pv.summary, "gap", None)
     if not isinstance(gap, (int, float)):
         gap = None if lb is None else longest / lb - 1.0
     return {
@@ -125,7 +126,7 @@ def fmt(key: str, value) -> str:
     return str(value)
 
 
-def summary_lines(plan: dict) -> list[str]:
+def summary_lines(plan: Plan | PlanView) -> list[str]:
     """The lines printed under the table (plain text, no markup)."""
     s = workload_summary(plan)
     if not s["crews"]:
@@ -142,9 +143,9 @@ def summary_lines(plan: dict) -> list[str]:
     return lines
 
 
-def workload_text(plan: dict, form: str) -> str:
+def workload_text(plan: Plan | PlanView, form: str) -> str:
     """The table as text in one of the plain formats :data:`TEXT_FORMATS` (csv, md, json)."""
-    pv = plan if isinstance(plan, PlanView) else view(plan)
+    pv = view(plan)
     if form not in TEXT_FORMATS:
         raise ValueError(f"unknown table format {form!r}; one of {', '.join(TEXT_FORMATS)}")
     rows = workload_rows(pv)

@@ -17,10 +17,12 @@ from __future__ import annotations
 import networkx as nx
 import numpy as np
 
-from crewcut.plans.planfile import CrewPlan, build_plan
+from crewcut.fleet.assemble import fleet_summary
+from crewcut.plans.model import CrewPlan, Plan
+from crewcut.plans.planfile import build_plan
 from crewcut.solve.costs import deadhead_minutes, service_minutes
 from crewcut.solve.network.model import SERVICE_NONE, Network
-from crewcut.solve.profile import Profile
+from crewcut.solve.profile import Crew, Profile
 from crewcut.solve.result import Route, RouteTotals, Traversal
 
 from helpers.checks import azimuth
@@ -97,18 +99,18 @@ def grid_routes(net: Network, profile: Profile, k: int) -> list[CrewPlan]:
         totals = RouteTotals.of(trav)
         lb = sum(smin[s] for s in terr)  # serving every pass once is a lower bound (no deadhead, no turns)
         route = Route(depot, tuple(trav), totals, "test-euler-circuit", False, lb)
-        crews.append(CrewPlan(f"crew-{chr(65 + b)}", depot, 20.0 if b == 0 else 480.0, terr, [route]))
+        crews.append(CrewPlan(Crew(f"crew-{chr(65 + b)}", 20.0 if b == 0 else 480.0, None, depot), tuple(terr),
+                              (route,)))
     return crews
 
 
-def make_plan(k: int = 3, cols: int = 6, rows: int = 4, traffic: str = "right") -> dict:
-    """A k-crew plan document of the grid town (crew-A's shift limit is set low so it is over limit)."""
+def make_plan(k: int = 3, cols: int = 6, rows: int = 4, traffic: str = "right") -> Plan:
+    """A k-crew plan of the grid town (crew-A's shift limit is set low so it is over limit)."""
     profile = Profile(traffic=traffic, service_speed_kmh={"default": 6.0}, deadhead_speed_kmh={"default": 25.0})
     net = named_grid(cols, rows)
     crews = grid_routes(net, profile, k)
     service_total = sum(sum(t.minutes for t in c.routes[0].traversals if t.service) for c in crews)
-    shifts = [c.shift_min for c in crews]
     # mean service time per crew is a lower bound on the longest shift (the longest is at least the mean)
     lb = service_total / k
-    summary = {"lower_bound_min": lb, "gap": max(shifts) / lb - 1.0, "longest_shift_min": max(shifts)}
+    summary = fleet_summary(crews, lb, method="test: networkx Euler circuits per column band")
     return build_plan(net, profile, crews, source="tallowmere-grid (tests)", summary=summary)

@@ -47,20 +47,20 @@ def run(args, ui) -> int:
     return 0
 
 
-def _print(ui, plan: dict, path: Path, seconds: float) -> None:
+def _print(ui, plan, path: Path, seconds: float) -> None:
     # The workload table's caption already gives longest / mean, the bound, the gap
     # and the crews over their limit; add only what the table does not say.
     from crewcut.cli.tables import workload_table
 
-    s = plan["summary"]
+    s = plan.summary
     ui.out.print(workload_table(plan))
     ui.out.print("the gap is an upper bound on how far this heuristic plan is from the best possible")
-    b = s.get("balance", {})
+    b = s.balance
     if b:
-        ui.out.print(f"balancing: longest {b['before_longest_min'] / 60:.2f} h -> {b['after_longest_min'] / 60:.2f} h, "
-                     f"{b['moves_kept']} moves and {b['swaps_kept']} swaps kept of {b['trials']} tried, "
-                     f"stopped on {b['stop']}")
-    if s["over_limit"]:
-        ui.out.print(f"an estimated {s['crews_needed_estimate']} crews would fit their shift limits "
+        ui.out.print(f"balancing: longest {b.before_longest_min / 60:.2f} h -> {b.after_longest_min / 60:.2f} h, "
+                     f"{b.moves_kept} moves and {b.swaps_kept} swaps kept of {b.trials} tried, "
+                     f"stopped on {b.stop}")
+    if s.over_limit:
+        ui.out.print(f"an estimated {s.crews_needed_estimate} crews would fit their shift limits "
                      f"(total shift minutes over the limits; not a plan)")
     ui.out.print(f"plan written to {path} ({seconds:.1f} s)")

@@ -56,10 +56,14 @@ def run(args, ui) -> int:
     from crewcut.solve.profile import load_profile
     from crewcut.solve.readers import read_network
 
+    from crewcut.solve.profile import Crew
+
+    from crewcut.fleet.changes import Changes
+    from crewcut.fleet.replan import replan
     from crewcut.plans.planfile import read_plan, write_plan
-    from crewcut.fleet.replan import rebalance_plan
     from crewcut.plans.verify import profile_of_plan
     from crewcut.cli.tables import workload_table
+    from crewcut.reports.changes import change_report
 
     plan_path = Path(args.plan)
     plan = read_plan(plan_path)
@@ -74,19 +78,23 @@ def run(args, ui) -> int:
     opened = None
     if args.open:
         opened = read_network(args.open, profile)
+    changes = Changes(absent=tuple(args.absent),
+                      added_crews=tuple(Crew(cid, float(profile.shift_limit_min), (lon, lat)) for cid, lon, lat in add),
+                      closed=tuple(close), opened=opened, shift_limits=limits)
     t0 = time.perf_counter()
     with stage_progress(ui) as progress:
-        new_plan, rep = rebalance_plan(
-            plan, net, absent=args.absent, add_crews=add, close=close, opened=opened, shift_limits=limits,
-            stability=args.stability, overflow="defer" if args.defer else ("overtime" if args.overtime else None),
-            seed=args.seed, workers=args.workers, time_limit_s=args.time_limit, progress=progress, profile=profile,
+        new_plan = replan(
+            plan, net, changes, profile=profile, stability=args.stability,
+            overflow="defer" if args.defer else ("overtime" if args.overtime else None),
+            seed=args.seed, workers=args.workers, time_limit_s=args.time_limit, progress=progress,
             parent={"sha256": hashlib.sha256(raw).hexdigest(), "path": str(plan_path)},
             source=str(net_path), network_name=f"network '{net_path}'")
     seconds = time.perf_counter() - t0
+    rep = change_report(plan, new_plan)
     path = write_plan(new_plan, out_dir / "plan.json")
     ui.out.print(change_table(rep))
     ui.out.print(workload_table(new_plan))
-    if rep.get("over_limit") and not (args.defer or args.overtime):
+    if rep.over_limit and not (args.defer or args.overtime):
         ui.out.print("the work does not fit the shift limits: --defer lists the lowest-priority streets that can "
                      "wait, --overtime the overtime each crew would need")
     ui.out.print(f"plan written to {path} ({seconds:.1f} s)")
@@ -103,12 +111,12 @@ def _out_dir(plan_path: Path, out: str | None) -> Path:
     return base / f"rebalanced-{i}"
 
 
-def _network_path(plan: dict, plan_path: Path, given: str | None) -> Path:
+def _network_path(plan, plan_path: Path, given: str | None) -> Path:
     from crewcut.solve.errors import InputError
 
     if given:
         return Path(given)
-    src = str(plan.get("network", {}).get("source") or "")
+    src = plan.network.source
     for cand in (Path(src), plan_path.parent / src) if src else ():
         if cand.is_file():
             return cand
@@ -168,7 +176,7 @@ def _closures(items: list[str]) -> list[str]:
     return out
 
 
-def change_table(rep: dict):
+def change_table(rep):
     """The change report as a rich Table (units in the headers, a totals row, the overall figures below)."""
     from rich.table import Table
     from rich.text import Text
@@ -180,23 +188,23 @@ def change_table(rep: dict):
             ("route sheet", "left"))
     for name, just in cols:
         t.add_column(name, justify=just)
-    rows = rep["crews"]
+    rows = rep.crews
     for i, r in enumerate(rows):
-        over = r["new_limit_min"] is not None and r["new_shift_min"] > r["new_limit_min"] + 1e-9
+        over = r.new_limit_min is not None and r.new_shift_min > r.new_limit_min + 1e-9
         t.add_row(*[Text(x) for x in (
-            r["crew"], r["status"], str(r["gained"]), f"{r['gained_km']:.2f}", str(r["lost"]), f"{r['lost_km']:.2f}",
-            f"{r['old_shift_min'] / 60:.2f}", f"{r['new_shift_min'] / 60:.2f}",
-            f"{(r['new_shift_min'] - r['old_shift_min']) / 60:+.2f}",
-            "" if r["new_limit_min"] is None else f"{r['new_limit_min'] / 60:.2f}" + (" !" if over else ""),
-            "new" if r["route_changed"] else ("none" if r["status"] == "absent" else "unchanged"))],
+            r.crew, r.status, str(r.gained), f"{r.gained_km:.2f}", str(r.lost), f"{r.lost_km:.2f}",
+            f"{r.old_shift_min / 60:.2f}", f"{r.new_shift_min / 60:.2f}",
+            f"{(r.new_shift_min - r.old_shift_min) / 60:+.2f}",
+            "" if r.new_limit_min is None else f"{r.new_limit_min / 60:.2f}" + (" !" if over else ""),
+            "new" if r.route_changed else ("none" if r.status == "absent" else "unchanged"))],
             style="bold red" if over else None, end_section=i == len(rows) - 1)
-    tot_old = sum(r["old_shift_min"] for r in rows)
-    tot_new = sum(r["new_shift_min"] for r in rows)
+    tot_old = sum(r.old_shift_min for r in rows)
+    tot_new = sum(r.new_shift_min for r in rows)
     t.add_row(*[Text(x) for x in (
-        "all crews", "", str(sum(r["gained"] for r in rows)), f"{sum(r['gained_km'] for r in rows):.2f}",
-        str(sum(r["lost"] for r in rows)), f"{sum(r['lost_km'] for r in rows):.2f}", f"{tot_old / 60:.2f}",
+        "all crews", "", str(sum(r.gained for r in rows)), f"{sum(r.gained_km for r in rows):.2f}",
+        str(sum(r.lost for r in rows)), f"{sum(r.lost_km for r in rows):.2f}", f"{tot_old / 60:.2f}",
         f"{tot_new / 60:.2f}", f"{(tot_new - tot_old) / 60:+.2f}",
-        f"{sum(r['new_limit_min'] or 0 for r in rows) / 60:.2f}", f"{len(rep['routes_changed'])} new")],
+        f"{sum(r.new_limit_min or 0 for r in rows) / 60:.2f}", f"{len(rep.routes_changed)} new")],
         style="bold")
     from crewcut.reports.changes import change_lines
 

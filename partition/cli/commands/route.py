@@ -9,11 +9,12 @@ from rich.table import Table
 
 from crewcut.solve.costs import required_passes
 from crewcut.solve.errors import InputError
-from crewcut.solve.profile import load_profile
+from crewcut.solve.profile import Crew, load_profile
 from crewcut.solve.readers import read_network
 from crewcut.solve.route import plan_route
 
-from crewcut.plans.planfile import CrewPlan, build_plan, write_plan
+from crewcut.plans.model import CrewPlan, RouteSummary, RunOptions
+from crewcut.plans.planfile import build_plan, write_plan
 from crewcut.cli.commands.common import add_network_arguments, depot_from_args, measure_table, out_folder
 
 NAME = "route"
@@ -58,18 +59,15 @@ def run(args, ui) -> int:
         route = plan_route(net, profile, depot, turn_aware=not args.plain, seed=args.seed)
         bar.update(task, completed=1, total=1)
     territory = np.flatnonzero(required_passes(net, profile).total > 0).tolist()
-    crew = CrewPlan(id=crew_id or "crew-1", depot_node=depot,
-                    shift_limit_min=shift if shift is not None else profile.shift_limit_min,
-                    territory=territory, routes=[route])
+    crew = CrewPlan(Crew(crew_id or "crew-1", float(shift if shift is not None else profile.shift_limit_min),
+                         None, depot), tuple(territory), (route,))
     st = route.stats
-    summary = {"crews": 1, "total_min": route.totals.total_min, "lower_bound_min": route.lower_bound_min,
-               "gap": route.gap, "exact": route.exact, "method": route.method,
-               "u_turns": route.totals.u_turns, "across_turns": route.totals.across_turns,
-               "plain_u_turns": st.get("plain_u_turns"), "plain_across_turns": st.get("plain_across_turns")}
-    plan = build_plan(net, profile, [crew], source=str(args.network),
-                      settings={"command": "route", "depot_node": depot, "seed": args.seed,
-                                "turn_aware": not args.plain},
-                      summary=summary)
+    summary = RouteSummary(crews=1, total_min=route.totals.total_min, lower_bound_min=route.lower_bound_min,
+                           gap=route.gap, exact=route.exact, method=route.method, u_turns=route.totals.u_turns,
+                           across_turns=route.totals.across_turns, plain_u_turns=st.get("plain_u_turns"),
+                           plain_across_turns=st.get("plain_across_turns"))
+    plan = build_plan(net, profile, [crew], source=str(args.network), summary=summary,
+                   options=RunOptions(command="route", depot_node=depot, seed=args.seed, turn_aware=not args.plain))
     path = write_plan(plan, out_dir / "plan.json")
     _print(ui, args.network, profile.name, depot_text, route, path)
     return 0

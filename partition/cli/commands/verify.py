@@ -31,7 +31,7 @@ def run(args, ui) -> int:
         raise InputError(f"{args.plan} is not a valid plan for {args.network}: {found[0]}",
                          "re-plan with 'crewcut plan', or give the network the plan was made on")
     o = plan_overview(plan)
-    ui.out.print(f"valid: {o['crews']} crews, {o['segments']:,} segments in territories, {o['traversals']:,} "
+    ui.out.print(f"valid: {o.crews} crews, {o.segments:,} segments in territories, {o.traversals:,} "
                  f"traversals; every required pass served exactly once; closed walks from the depots; "
-                 f"longest shift {o['longest_min'] / 60:.2f} h")
+                 f"longest shift {o.longest_min / 60:.2f} h")
     return 0

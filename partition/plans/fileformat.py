@@ -1,0 +1,405 @@
+"""The plan file's JSON document and the typed :class:`crewcut.plans.model.Plan`, each into the other.
+
+:func:`plan_to_dict` gives the document with the file's fixed key order and
+rounding (metres to 3 decimals, minutes to 4 or 5, coordinates to 7, summary
+figures to 5; no ``-0.0``); :func:`plan_from_dict` checks a document
+(:func:`record_problem` and the checks the reports need: coordinates, traffic
+side, totals) and returns the plan, or raises :class:`InputError` naming the
+record at fault. For every document crewcut writes,
+``plan_to_dict(plan_from_dict(doc)) == doc``.
+"""
+from __future__ import annotations
+
+import dataclasses
+import json
+import math
+
+import numpy as np
+
+from crewcut.solve.errors import InputError
+from crewcut.solve.profile import Crew, Profile
+from crewcut.solve.result import Route, RouteTotals, Traversal
+
+from crewcut.plans.model import (CHANGE_FIELDS, FORMAT, VERSION, BalanceLimits, BalanceOutcome, Change, CrewPlan,
+                                 DeferredSegment, FleetSummary, History, NodeRecord, OverLimit, Plan, PlanNetwork,
+                                 PlanSettings, ReplanLimits, RouteSummary, RunOptions, SegmentPasses, SegmentRecord,
+                                 route_id)
+
+FIX = "re-plan, or restore the file as crewcut wrote it"
+_TOTALS = ("service_km", "service_min", "deadhead_km", "deadhead_min", "turn_min", "total_min", "u_turns",
+           "across_turns")
+
+
+def rnd(x: float, nd: int) -> float:
+    """``x`` rounded to ``nd`` decimals, as the file records it (never ``-0.0``)."""
+    v = round(float(x), nd)
+    return 0.0 if v == 0 else v
+
+
+def rounded(d):
+    """Every float in a nested summary rounded to 5 decimals (numpy numbers made plain)."""
+    if isinstance(d, dict):
+        return {k: rounded(v) for k, v in d.items()}
+    if isinstance(d, (list, tuple)):
+        return [rounded(v) for v in d]
+    if isinstance(d, (float, np.floating)):
+        return rnd(d, 5)
+    if isinstance(d, np.integer):
+        return int(d)
+    return d
+
+
+def dumps(doc: dict) -> str:
+    """The document as the file's text: compact UTF-8 JSON, one trailing newline."""
+    return json.dumps(doc, ensure_ascii=False, separators=(",", ":"), allow_nan=False) + "\n"
+
+
+# ------------------------------------------------------------------ typed -> document
+def route_section(route: Route, rid: str = "route-1") -> dict:
+    t = route.totals
+    return {
+        "id": rid,
+        "method": route.method,
+        "exact": route.exact,
+        "lower_bound_min": rnd(route.lower_bound_min, 4),
+        "totals": {"service_km": rnd(t.service_km, 4), "service_min": rnd(t.service_min, 4),
+                   "deadhead_km": rnd(t.deadhead_km, 4), "deadhead_min": rnd(t.deadhead_min, 4),
+                   "turn_min": rnd(t.turn_min, 4), "total_min": rnd(t.total_min, 4),
+                   "u_turns": t.u_turns, "across_turns": t.across_turns},
+        "traversals": [{"segment": x.segment, "from": x.from_node, "to": x.to_node,
+                        "mode": "service" if x.service else "deadhead",
+                        "metres": rnd(x.metres, 3), "minutes": rnd(x.minutes, 5),
+                        "turn": x.turn, "turn_minutes": rnd(x.turn_minutes, 5)}
+                       for x in route.traversals],
+    }
+
+
+def crew_section(c: CrewPlan) -> dict:
+    return {"id": c.id, "depot_node": int(c.depot_node), "shift_limit_min": rnd(c.shift_limit_min, 3),
+            "territory": sorted(int(s) for s in c.territory), "shift_min": rnd(c.shift_min, 4),
+            "routes": [route_section(r, route_id(i)) for i, r in enumerate(c.routes)]}
+
+
+def _node_dict(n: NodeRecord) -> dict:
+    return {"id": n.id, "lon": n.lon, "lat": n.lat, "label": n.label}
+
+
+def _segment_dict(s: SegmentRecord) -> dict:
+    p = s.passes
+    return {"id": s.id, "source_id": s.source_id, "from": s.from_node, "to": s.to_node,
+            "length_m": rnd(s.length_m, 3), "oneway": s.oneway, "closed": s.closed, "name": s.name,
+            "class": s.road_class, "service": s.service,
+            "passes": {"forward": p.forward, "backward": p.backward, "either": p.either},
+            "service_min": rnd(s.service_min, 5), "deadhead_min": rnd(s.deadhead_min, 5),
+            "coords": None if s.coords is None else [[rnd(x, 7), rnd(y, 7)] for x, y in s.coords]}
+
+
+def summary_dict(s: FleetSummary | RouteSummary | None) -> dict:
+    if s is None:
+        return {}
+    d = {f.name: getattr(s, f.name) for f in dataclasses.fields(s)}
+    if isinstance(s, FleetSummary):
+        d["over_limit"] = [dataclasses.asdict(o) for o in s.over_limit]
+        for key in ("balance", "deferred_segments", "deferred_min"):
+            if d[key] is None:
+                del d[key]
+        if s.balance is not None:
+            d["balance"] = dataclasses.asdict(s.balance)
+    return rounded(d)
+
+
+def _change_dict(c: Change) -> dict:
+    d = {"kind": c.kind}
+    for key in CHANGE_FIELDS.get(c.kind, ()):
+        v = getattr(c, key)
+        d[key] = list(v) if isinstance(v, tuple) else v
+    return d
+
+
+def history_dict(h: History) -> dict:
+    changes = [_change_dict(c) for c in h.changes]
+    if h.generation is None:
+        return {"parent": h.parent, "changes": changes}
+    return {"parent": h.parent, "parent_path": h.parent_path, "parent_fingerprint": h.parent_fingerprint,
+            "generation": h.generation, "lineage": list(h.lineage), "changes": changes,
+            "stability": h.stability, "overflow": h.overflow}
+
+
+def _deferred_dict(d: DeferredSegment) -> dict:
+    return {"segment": d.segment, "source_id": d.source_id, "name": d.name, "class": d.road_class,
+            "priority": d.priority, "crew": d.crew, "work_min": d.work_min, "length_m": d.length_m}
+
+
+# The key order of the run options: a replan keeps its parent's keys in place and appends its own,
+# so the order depends on the lineage: a one-crew plan's (command), a fleet plan's (balance), or neither.
+_OPTION_ORDER = {
+    "route": ("command", "depot_node", "seed", "turn_aware", "crews", "rebalance", "route_time_limit_s"),
+    "fleet": ("seed", "crews", "balance", "route_time_limit_s", "rebalance"),
+    "other": ("seed", "crews", "rebalance", "route_time_limit_s"),
+}
+
+
+def options_dict(o: RunOptions) -> dict:
+    """The run options as the file records them (only those recorded, in the lineage's key order)."""
+    lineage = "route" if o.command is not None else ("fleet" if o.balance is not None else "other")
+    out = {}
+    for key in _OPTION_ORDER[lineage]:
+        v = getattr(o, key)
+        if v is None:
+            continue
+        if key == "crews":
+            v = [{"id": c.id, "depot_node": c.depot_node, "shift_limit_min": c.shift_limit_min} for c in v]
+        elif key in ("balance", "rebalance"):
+            v = dataclasses.asdict(v)
+        out[key] = v
+    return out
+
+
+def plan_to_dict(plan: Plan) -> dict:
+    """The plan file's document (plain dicts and lists, fixed key order, rounded numbers)."""
+    nw = plan.network
+    doc = {
+        "format": FORMAT,
+        "version": VERSION,
+        "settings": {"profile": plan.settings.profile.to_dict(), **options_dict(plan.settings.options)},
+        "network": {"fingerprint": nw.fingerprint, "source": nw.source, "has_geometry": nw.has_geometry,
+                    "origin": list(nw.origin), "nodes": [_node_dict(n) for n in nw.nodes],
+                    "segments": [_segment_dict(s) for s in nw.segments]},
+        "crews": [crew_section(c) for c in plan.crews],
+        "summary": summary_dict(plan.summary),
+        "history": history_dict(plan.history),
+    }
+    if plan.deferred is not None:
+        doc["deferred"] = [_deferred_dict(d) for d in plan.deferred]
+    return doc
+
+
+# ------------------------------------------------------------------ document -> typed
+def _is_int(x) -> bool:
+    return isinstance(x, int) and not isinstance(x, bool)
+
+
+def _is_num(x) -> bool:
+    return isinstance(x, (int, float)) and not isinstance(x, bool)
+
+
+def _is_finite(x) -> bool:
+    return _is_num(x) and math.isfinite(x)
+
+
+_TRAVERSAL_KEYS = {"segment": _is_int, "from": _is_int, "to": _is_int, "mode": lambda x: x in ("service", "deadhead"),
+                   "metres": _is_finite, "minutes": _is_finite, "turn_minutes": _is_finite}
+_SEGMENT_KEYS = {"id": _is_int, "from": _is_int, "to": _is_int, "length_m": _is_finite,
+                 "service_min": _is_finite, "deadhead_min": _is_finite,
+                 "passes": lambda x: isinstance(x, dict) and all(_is_int(v) for v in x.values())}
+
+
+def record_problem(plan: dict) -> str | None:
+    """The first record not shaped or linked as crewcut writes it; None when all are sound.
+
+    The structural check of a plan document, run by :func:`plan_from_dict`: types,
+    ids equal to positions, end nodes, depots, territories and traversals that
+    point at existing nodes and segments, unique crew ids.
+    """
+    net = plan.get("network")
+    if not isinstance(net, dict) or not isinstance(net.get("segments"), list) \
+            or not isinstance(net.get("nodes"), list):
+        return "the network section has no list of nodes and segments"
+    nodes, segs = net["nodes"], net["segments"]
+    for i, n in enumerate(nodes):
+        if not isinstance(n, dict) or n.get("id") != i:
+            return f"node {i} is malformed (node ids must equal their positions)"
+    for i, seg in enumerate(segs):
+        bad = [k for k, ok in _SEGMENT_KEYS.items() if not (isinstance(seg, dict) and ok(seg.get(k)))]
+        if bad:
+            return f"segment {i} lacks or mangles {', '.join(bad)}"
+        if seg["id"] != i or not (0 <= seg["from"] < len(nodes) and 0 <= seg["to"] < len(nodes)):
+            return f"segment {i} has an id or end nodes that are not in the plan"
+    crews = plan.get("crews")
+    if not isinstance(crews, list):
+        return "'crews' is not a list"
+    seen: set[str] = set()
+    for c in crews:
+        cid = c.get("id") if isinstance(c, dict) else None
+        if not isinstance(cid, str) or not cid:
+            return "a crew record has no id"
+        if cid in seen:
+            return f"crew id '{cid}' appears twice"
+        seen.add(cid)
+        if not (_is_int(c.get("depot_node")) and 0 <= c["depot_node"] < len(nodes)
+                and _is_num(c.get("shift_limit_min")) and isinstance(c.get("territory"), list)
+                and all(_is_int(s) and 0 <= s < len(segs) for s in c["territory"])
+                and isinstance(c.get("routes"), list)):
+            return f"crew '{cid}' lacks or mangles its depot, shift limit, territory or routes"
+        for r in c["routes"]:
+            rid = r.get("id", "?") if isinstance(r, dict) else "?"
+            trs = r.get("traversals") if isinstance(r, dict) else None
+            if not isinstance(trs, list) or not isinstance(r.get("totals"), dict):
+                return f"crew '{cid}' route '{rid}' has no traversals or totals"
+            for j, t in enumerate(trs):
+                bad = [k for k, ok in _TRAVERSAL_KEYS.items() if not (isinstance(t, dict) and ok(t.get(k)))]
+                if bad:
+                    return f"crew '{cid}' route '{rid}': traversal {j} lacks or mangles {', '.join(bad)}"
+                if not 0 <= t["segment"] < len(segs) or {t["from"], t["to"]} != {segs[t["segment"]]["from"],
+                                                                                  segs[t["segment"]]["to"]}:
+                    return f"crew '{cid}' route '{rid}': traversal {j} does not match its segment's end nodes"
+                if not isinstance(t.get("turn", ""), str):
+                    return f"crew '{cid}' route '{rid}': traversal {j} has a turn that is not text"
+            bad = [k for k in _TOTALS if not (_is_finite(r["totals"].get(k)) if k.endswith(("_km", "_min"))
+                                              else _is_int(r["totals"].get(k)))]
+            if bad:
+                return f"crew '{cid}' route '{rid}': totals lack or mangle {', '.join(bad)}"
+    return _geometry_problem(net) or _settings_problem(plan.get("settings"))
+
+
+def _pair(q) -> bool:
+    return isinstance(q, list) and len(q) == 2 and all(_is_finite(v) for v in q)
+
+
+def _geometry_problem(net: dict) -> str | None:
+    """Node and segment coordinates of a network with geometry: finite lon/lat pairs."""
+    if not net.get("has_geometry", False):
+        return None
+    for i, n in enumerate(net["nodes"]):
+        if not (_is_finite(n.get("lon")) and _is_finite(n.get("lat"))):
+            return f"network: node {i} has no valid lon/lat"
+    for i, s in enumerate(net["segments"]):
+        c = s.get("coords")
+        if not isinstance(c, list) or len(c) < 2 or any(not isinstance(q, list) or len(q) != 2 for q in c):
+            return f"network: segment {i} has no valid coordinates (a list of two or more [lon, lat])"
+        if not all(_pair(q) for q in c):
+            return f"network: segment {i} has a coordinate that is not a number"
+    return None
+
+
+def _settings_problem(settings) -> str | None:
+    if not isinstance(settings, dict) or not isinstance(settings.get("profile", {}), dict):
+        return "the settings section has no profile record"
+    traffic = settings.get("profile", {}).get("traffic", "right")
+    if traffic not in ("right", "left"):
+        return f"settings.profile.traffic is {traffic!r} (it must be \"right\" or \"left\")"
+    return None
+
+
+def _traversals(rec: dict) -> tuple[Traversal, ...]:
+    return tuple(Traversal(t["segment"], t["from"], t["to"], t["mode"] == "service", t["metres"], t["minutes"],
+                           str(t.get("turn", "unknown")), t["turn_minutes"]) for t in rec["traversals"])
+
+
+def _route(rec: dict, depot: int) -> Route:
+    tot = rec["totals"]
+    totals = RouteTotals(**{k: tot[k] for k in _TOTALS})
+    return Route(depot, _traversals(rec), totals, str(rec.get("method", "")), bool(rec.get("exact", False)),
+                 rec.get("lower_bound_min", 0.0))
+
+
+def _crew(rec: dict) -> CrewPlan:
+    depot = rec["depot_node"]
+    crew = CrewPlan(Crew(rec["id"], rec["shift_limit_min"], None, depot),
+                    tuple(sorted(rec["territory"])), tuple(_route(r, depot) for r in rec["routes"]))
+    recorded = rec.get("shift_min")
+    if not _is_finite(recorded) or abs(recorded - crew.shift_min) > 1e-3 * max(1, len(crew.routes)):
+        raise InputError(f"crew '{crew.id}': shift_min {recorded!r} but its routes add up to {crew.shift_min:.4f}")
+    return crew
+
+
+def _segment(s: dict) -> SegmentRecord:
+    c = s.get("coords")
+    return SegmentRecord(s["id"], str(s["source_id"]), s["from"], s["to"], s["length_m"], bool(s["oneway"]),
+                         bool(s["closed"]), str(s["name"]), str(s["class"]), str(s["service"]),
+                         SegmentPasses(s["passes"]["forward"], s["passes"]["backward"], s["passes"]["either"]),
+                         s["service_min"], s["deadhead_min"],
+                         None if c is None else tuple((q[0], q[1]) for q in c))
+
+
+def _network(nw: dict) -> PlanNetwork:
+    origin = nw.get("origin") or [0.0, 0.0]
+    return PlanNetwork(str(nw.get("fingerprint", "")), str(nw.get("source") or ""), bool(nw.get("has_geometry", False)),
+                       (origin[0], origin[1]),
+                       tuple(NodeRecord(n["id"], n.get("lon"), n.get("lat"), str(n.get("label") or ""))
+                             for n in nw["nodes"]),
+                       tuple(_segment(s) for s in nw["segments"]))
+
+
+def _options(rec: dict) -> RunOptions:
+    known = {f.name for f in dataclasses.fields(RunOptions)}
+    unknown = sorted(k for k in rec if k not in known)
+    if unknown:
+        raise InputError(f"settings: unknown run option(s) {', '.join(repr(k) for k in unknown)}")
+    kw = dict(rec)
+    if kw.get("crews") is not None:
+        kw["crews"] = tuple(Crew(c["id"], c["shift_limit_min"], None, c["depot_node"]) for c in kw["crews"])
+    if kw.get("balance") is not None:
+        kw["balance"] = BalanceLimits(**kw["balance"])
+    if kw.get("rebalance") is not None:
+        kw["rebalance"] = ReplanLimits(**kw["rebalance"])
+    return RunOptions(**kw)
+
+
+def _settings(rec: dict) -> PlanSettings:
+    names = {f.name for f in dataclasses.fields(Profile)}
+    prof = {k: (dict(v) if isinstance(v, dict) else v) for k, v in rec.get("profile", {}).items() if k in names}
+    return PlanSettings(dataclasses.replace(Profile(), **prof),
+                        _options({k: v for k, v in rec.items() if k != "profile"}))
+
+
+def _summary(rec: dict) -> FleetSummary | RouteSummary | None:
+    if not rec:
+        return None
+    if "longest_min" in rec:
+        d = dict(rec)
+        d["over_limit"] = tuple(OverLimit(**o) for o in rec.get("over_limit", []))
+        if rec.get("balance") is not None:
+            d["balance"] = BalanceOutcome(**rec["balance"])
+        return FleetSummary(**d)
+    if "total_min" in rec:
+        return RouteSummary(**rec)
+    raise InputError("the summary is neither a fleet plan's nor a one-crew plan's")
+
+
+def _history(rec: dict) -> History:
+    changes = tuple(Change(**{k: (tuple(v) if isinstance(v, list) else v) for k, v in c.items()})
+                    for c in rec.get("changes", []))
+    if "generation" not in rec:
+        return History(rec.get("parent"), changes)
+    return History(rec["parent"], changes, rec.get("parent_path"), rec.get("parent_fingerprint"),
+                   rec["generation"], tuple(rec.get("lineage", [])), rec.get("stability"), rec.get("overflow"))
+
+
+def _deferred(i: int, rec: dict) -> DeferredSegment:
+    missing = [k for k in ("segment", "source_id", "priority", "crew", "work_min")
+               if not isinstance(rec, dict) or rec.get(k) is None]
+    if missing:
+        raise InputError(f"deferred entry {i} lacks {', '.join(missing)}")
+    return DeferredSegment(rec["segment"], rec["source_id"], rec.get("name", ""), rec.get("class", ""),
+                           rec["priority"], rec["crew"], rec["work_min"], rec.get("length_m", 0.0))
+
+
+def plan_from_dict(doc: dict, name: str = "plan") -> Plan:
+    """The typed plan of a plan document; :class:`InputError` naming the record when it is damaged.
+
+    ``name`` (the file's path) starts every message.
+    """
+    if not isinstance(doc, dict) or doc.get("format") != FORMAT:
+        raise InputError(f"{name}: not a crewcut plan file (no \"format\": \"{FORMAT}\")",
+                         "give the plan.json written by 'crewcut plan' or 'crewcut route'")
+    if doc.get("version") != VERSION:
+        raise InputError(f"{name}: plan format version {doc.get('version')!r} is not supported "
+                         f"(this crewcut reads version {VERSION})", "re-plan with this version of crewcut")
+    for key in ("network", "crews", "settings"):
+        if key not in doc:
+            raise InputError(f"{name}: plan file has no '{key}' section")
+    problem = record_problem(doc)
+    if problem:
+        raise InputError(f"{name}: damaged plan file: {problem}", FIX)
+    try:
+        deferred = doc.get("deferred")
+        return Plan(settings=_settings(doc["settings"]), network=_network(doc["network"]),
+                    crews=tuple(_crew(c) for c in doc["crews"]), summary=_summary(doc.get("summary") or {}),
+                    history=_history(doc.get("history") or {}),
+                    deferred=None if deferred is None else tuple(_deferred(i, d) for i, d in enumerate(deferred)))
+    except InputError as exc:
+        raise InputError(f"{name}: damaged plan file: {exc.message}", FIX) from None
+    except (KeyError, TypeError, ValueError, AttributeError, IndexError) as exc:
+        raise InputError(f"{name}: damaged plan file: a record is malformed or has a value of the wrong type "
+                         f"({type(exc).__name__}: {exc})", FIX) from None
