@@ -117,3 +117,32 @@ def test_guard_prints_user_text_without_markup_or_control_sequences():
 
     assert guarded(work, Console(file=err, width=200)) == 2
     assert "crew '[/]]0;x' is unknown" in err.getvalue()
+
+
+def test_commands_never_write_over_their_inputs(tmp_path, capsys):
+    """Every command that writes refuses an --out that is one of its inputs; the input stays byte-identical.
+
+    README, "Bad input" (the project's rule: outputs never replace inputs; common practice, no source).
+    """
+    from crewcut.cli.main import main
+
+    town = tmp_path / "plan.json"  # a street network that happens to be called plan.json
+    assert main(["-q", "demo", "--only-town", "--segments", "200", "--out", str(tmp_path / "t")]) == 0
+    town.write_bytes((tmp_path / "t" / "tallowmere.geojson").read_bytes())
+    net_bytes = town.read_bytes()
+    assert main(["-q", "plan", str(town), "--crews", "2", "--depot=-30.5,45.2", "--out", str(tmp_path)]) == 2
+    assert town.read_bytes() == net_bytes
+    assert main(["-q", "plan", str(town), "--crews", "2", "--depot=-30.5,45.2", "--out", str(tmp_path / "p"),
+                 "--workers", "1"]) == 0
+    plan = tmp_path / "p" / "plan.json"
+    plan_bytes = plan.read_bytes()
+    for argv in (["map", str(plan), "--out", str(plan)], ["report", str(plan), "--out", str(plan)],
+                 ["export", str(plan), "--format", "geojson", "--out", str(town)],
+                 ["sheets", str(plan), "--out", str(plan)],
+                 ["rebalance", str(plan), "--network", str(town), "--absent", "crew-1", "--out", str(tmp_path / "p")],
+                 ["map", str(plan), "--out", "/dev/null"]):
+        code = main(["-q", *argv])
+        assert code == 2, argv
+        assert plan.read_bytes() == plan_bytes and town.read_bytes() == net_bytes, argv
+    err = capsys.readouterr().err
+    assert "never writes over its input" in err and "not a regular file" in err

@@ -4,7 +4,7 @@ from __future__ import annotations
 import argparse
 from contextlib import contextmanager
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Iterable
 
 from crewcut.solve.network.depot import check_depot_node, snap_depot
 from crewcut.solve.errors import InputError
@@ -44,12 +44,29 @@ def add_network_arguments(parser: argparse.ArgumentParser, config_help: str = CO
     parser.add_argument("--config", metavar="FILE", help=config_help)
 
 
-def out_folder(path: str | Path, what: str = "plan.json") -> Path:
-    """An output folder that may not exist yet but must not be a file."""
+def out_folder(path: str | Path, what: str = "plan.json", inputs: Iterable[str | Path | None] = ()) -> Path:
+    """An output folder that may not exist yet but must not be a file, whose ``what`` replaces no input."""
+    from crewcut.cli.outputs import check_folder
+
     out = Path(path)
     if out.exists() and not out.is_dir():
         raise InputError(f"--out '{out}' is a file, not a folder", f"give a folder for {what}")
-    return out
+    return check_folder(out, [what], inputs)
+
+
+def plan_inputs(plan_path: str | Path, pv) -> list[str | Path | None]:
+    """A report's inputs: the plan file and the network file the plan records as its source."""
+    return [plan_path, pv.plan.network.source or None]
+
+
+def out_file(path: str | None, inputs: Iterable[str | Path | None]) -> str | None:
+    """The one output file of a command, checked before it writes: None or '-' mean standard output."""
+    from crewcut.cli.outputs import STDOUT, check_target
+
+    if path is None or path == STDOUT:
+        return None
+    check_target(path, inputs)
+    return path
 
 
 def depot_from_args(args, net: Network, profile: Profile) -> tuple[int, str, Crew | None] | None:
@@ -116,7 +133,7 @@ def measure_table(title: str):
 
 
 def write_or_print(ui, out: str | None, text: str) -> int:
-    """Write ``text`` atomically to ``out`` and say so, or to stdout when no file is given."""
+    """Write ``text`` atomically to ``out`` (checked with :func:`out_file`) and say so, or to stdout."""
     import sys
 
     from crewcut.files import atomic_write

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 
 from crewcut.reports.exports import FORMATS, export
-from crewcut.cli.commands.common import write_or_print
+from crewcut.cli.commands.common import out_file, plan_inputs, write_or_print
 from crewcut.plans.view import load
 
 NAME = "export"
@@ -13,10 +13,11 @@ HELP = "export a plan as GeoJSON (territories and routes), GPX 1.1 (one track pe
 def add_arguments(p) -> None:
     p.add_argument("plan", metavar="PLAN", help="plan.json written by 'crewcut plan' or 'crewcut route'")
     p.add_argument("--format", choices=FORMATS, required=True, help="geojson, gpx or csv")
-    p.add_argument("--out", metavar="FILE", help="write here (all at once); default: stdout")
+    p.add_argument("--out", metavar="FILE", help="write here (all at once; '-': stdout, the default)")
 
 
 def run(args, ui) -> int:
     pv = load(args.plan)
+    out = out_file(args.out, plan_inputs(args.plan, pv))
     text = export(pv, args.format)
-    return write_or_print(ui, args.out, text)
+    return write_or_print(ui, out, text)

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 
-from crewcut.cli.commands.common import write_or_print
+from crewcut.cli.commands.common import out_file, plan_inputs, write_or_print
 from crewcut.plans.view import load
 from crewcut.reports.svgmap import route_svg, territory_svg
 
@@ -13,10 +13,11 @@ HELP = "draw an SVG map: every crew's territory, or with --crew one crew's route
 def add_arguments(p) -> None:
     p.add_argument("plan", metavar="PLAN", help="plan.json written by 'crewcut plan' or 'crewcut route'")
     p.add_argument("--crew", metavar="ID", help="draw this crew's route instead of all territories")
-    p.add_argument("--out", metavar="FILE.svg", help="write the SVG here; default: stdout")
+    p.add_argument("--out", metavar="FILE.svg", help="write the SVG here ('-': stdout, the default)")
 
 
 def run(args, ui) -> int:
     pv = load(args.plan)
+    out = out_file(args.out, plan_inputs(args.plan, pv))
     svg = route_svg(pv, pv.select([args.crew])[0]) if args.crew else territory_svg(pv)
-    return write_or_print(ui, args.out, svg)
+    return write_or_print(ui, out, svg)

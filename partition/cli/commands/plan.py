@@ -34,7 +34,7 @@ def run(args, ui) -> int:
 
     profile = load_profile(args.config)
     depot = parse_lonlat(args.depot) if args.depot else None
-    out_dir = out_folder(args.out)
+    out_dir = out_folder(args.out, inputs=[args.network, args.config])
     net = read_network(args.network, profile)
     crews = resolve_crews(net, profile, k=args.crews, depot_lonlat=depot, only=args.crew)
     t0 = time.perf_counter()

@@ -69,7 +69,8 @@ def run(args, ui) -> int:
     plan = read_plan(plan_path)
     raw = plan_path.read_bytes()
     profile = profile_of_plan(plan, load_profile(args.config) if args.config else None)
-    out_dir = out_folder(_out_dir(plan_path, args.out))
+    out_dir = out_folder(_out_dir(plan_path, args.out),
+                         inputs=[plan_path, args.network, args.config, args.open, *args.close])
     net_path = _network_path(plan, plan_path, args.network)
     add = [_add_crew(text) for text in args.add_crew]
     limits = dict(_shift_limit(text) for text in args.shift_limit)

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 from crewcut.reports.htmlreport import report_html
-from crewcut.files import atomic_write
+from crewcut.cli.commands.common import out_file, plan_inputs, write_or_print
 from crewcut.plans.view import load
 
 NAME = "report"
@@ -11,12 +11,14 @@ HELP = "write one offline HTML file with the workload table, maps and every crew
 
 def add_arguments(p) -> None:
     p.add_argument("plan", metavar="PLAN", help="plan.json written by 'crewcut plan' or 'crewcut route'")
-    p.add_argument("--out", metavar="FILE.html", required=True, help="where to write the report")
+    p.add_argument("--out", metavar="FILE.html", required=True, help="where to write the report ('-': stdout)")
 
 
 def run(args, ui) -> int:
     pv = load(args.plan)
+    out = out_file(args.out, plan_inputs(args.plan, pv))
     text = report_html(pv)
-    atomic_write(args.out, text)
-    ui.out.print(f"wrote {args.out} (open it in any browser; it needs no network)")
+    write_or_print(ui, out, text)
+    if out:
+        ui.out.print("(open it in any browser; it needs no network)")
     return 0

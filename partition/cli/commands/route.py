@@ -15,7 +15,7 @@ from crewcut.solve.route import plan_route
 
 from crewcut.plans.model import CrewPlan, RouteSummary, RunOptions
 from crewcut.plans.planfile import build_plan, write_plan
-from crewcut.cli.commands.common import add_network_arguments, depot_from_args, measure_table, out_folder
+from crewcut.cli.commands.common import add_network_arguments, depot_from_args, line, measure_table, out_folder, styled
 
 NAME = "route"
 HELP = "plan one crew's route over the whole network and write it as a plan file"
@@ -51,7 +51,7 @@ def run(args, ui) -> int:
     if args.depot:  # a malformed --depot is reported before any reading
         from crewcut.cli.args import parse_lonlat
         parse_lonlat(args.depot)
-    out_dir = out_folder(args.out)
+    out_dir = out_folder(args.out, inputs=[args.network, args.config])
     net = read_network(args.network, profile)
     depot, depot_text, crew_id, shift = _depot(args, net, profile)
     with ui.progress() as bar:
@@ -76,7 +76,7 @@ def run(args, ui) -> int:
 def _print(ui, source, profile_name: str, depot_text: str, route, path: Path) -> None:
     out = ui.out
     t = route.totals
-    out.print(f"[bold]{source}[/]  profile: {profile_name}  depot: {depot_text}")
+    out.print(line((source, "bold"), f"  profile: {profile_name}  depot: {depot_text}"))
     n_service = sum(1 for x in route.traversals if x.service)
     n_dead = len(route.traversals) - n_service
     n_turns = sum(1 for x in route.traversals if x.turn != "start")
@@ -87,7 +87,7 @@ def _print(ui, source, profile_name: str, depot_text: str, route, path: Path) ->
     tab.add_row("deadhead", f"{n_dead:,}", f"{t.deadhead_km:,.2f}", f"{t.deadhead_min:,.1f}")
     tab.add_row("turns", f"{n_turns:,}", "", f"{t.turn_min:,.1f}")
     tab.add_section()
-    tab.add_row("[bold]total[/]", f"{len(route.traversals):,}", f"{t.service_km + t.deadhead_km:,.2f}",
+    tab.add_row(styled("total", "bold"), f"{len(route.traversals):,}", f"{t.service_km + t.deadhead_km:,.2f}",
                 f"{t.total_min:,.1f}")
     out.print(tab)
 
@@ -110,7 +110,7 @@ def _print(ui, source, profile_name: str, depot_text: str, route, path: Path) ->
     for label, mine, plain in rows:
         turns.add_row(label, *([f"{mine:,}"] if aware else []), f"{plain:,}")
     turns.add_section()
-    turns.add_row("[bold]turn time (min)[/]", *([f"{t.turn_min:,.1f}"] if aware else []),
+    turns.add_row(styled("turn time (min)", "bold"), *([f"{t.turn_min:,.1f}"] if aware else []),
                   f"{st.get('plain_turn_s', 0.0) / 60:,.1f}")
     out.print(turns)
     if aware and st.get("kept") == "plain":

@@ -2,10 +2,10 @@
 from __future__ import annotations
 
 import sys
-from pathlib import Path
 
-from crewcut.solve.errors import InputError
 
+from crewcut.cli.commands.common import plan_inputs
+from crewcut.cli.outputs import check_folder
 from crewcut.files import atomic_write_many
 from crewcut.plans.view import load
 from crewcut.reports.sheets import SHEET_FORMATS, sheet_files
@@ -32,9 +32,7 @@ def run(args, ui) -> int:
     if not args.out:
         sys.stdout.write("\n".join(text for _n, text in files))
         return 0
-    out = Path(args.out)
-    if out.exists() and not out.is_dir():
-        raise InputError(f"--out {out} is a file, not a folder", "give a folder for the sheets")
+    out = check_folder(args.out, [name for name, _ in files], plan_inputs(args.plan, pv))
     for path in atomic_write_many([(out / name, text) for name, text in files]):
         ui.out.print(f"wrote {path}")
     return 0
