@@ -33,6 +33,7 @@ import numpy as np
 from crewcut.solve.postman.bounds import route_lower_bound
 from crewcut.solve.circuits.euler import euler_circuit
 from crewcut.solve.errors import InputError
+from crewcut.solve.seeds import check_seed
 from crewcut.solve.postman.eulerize import augmented_arcs, eulerize
 from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Profile
@@ -70,8 +71,7 @@ def _check_params(time_limit_s, seed) -> None:
     if isinstance(time_limit_s, bool) or not isinstance(time_limit_s, numbers.Real) \
             or not np.isfinite(time_limit_s) or time_limit_s <= 0:
         raise InputError(f"time_limit_s must be a positive number of seconds, got {time_limit_s!r}")
-    if isinstance(seed, bool) or not isinstance(seed, numbers.Integral) or seed < 0:
-        raise InputError(f"seed must be a whole number 0 or more, got {seed!r}")
+    check_seed(seed)
 
 
 @dataclass(frozen=True)

@@ -102,3 +102,43 @@ def test_toml_nested_too_deeply(tmp_path):
     path.write_text("a = " + "[" * 100_000)
     with pytest.raises(InputError, match="nested too deeply|not valid TOML"):
         load_profile(path)
+
+
+def test_closing_an_ambiguous_feature_id_is_refused(tmp_path, capsys):
+    """Two separate streets with one feature id: --close ID cannot tell which is meant (exit 2, matches listed)."""
+    from crewcut.cli.main import main
+
+    grid = [_line([[-30.5 + 0.001 * i, 45.2], [-30.5 + 0.001 * (i + 1), 45.2]], id=f"row{i}") for i in range(4)]
+    grid += [_line([[-30.5 + 0.001 * i, 45.2], [-30.5 + 0.001 * i, 45.201]], id=f"col{i}") for i in range(5)]
+    grid += [_line([[-30.5 + 0.001 * i, 45.201], [-30.5 + 0.001 * (i + 1), 45.201]], id="twin") for i in (0, 2)]
+    grid += [_line([[-30.5 + 0.001 * i, 45.201], [-30.5 + 0.001 * (i + 1), 45.201]], id=f"top{i}") for i in (1, 3)]
+    town = _geojson(tmp_path, *grid)
+    assert main(["-q", "plan", town, "--crews", "2", "--depot=-30.5,45.2", "--out", str(tmp_path / "p"),
+                 "--workers", "1"]) == 0
+    assert main(["-q", "rebalance", str(tmp_path / "p" / "plan.json"), "--close", "twin",
+                 "--out", str(tmp_path / "r")]) == 2
+    assert "'twin' is ambiguous: 2 separate streets" in capsys.readouterr().err
+    assert not (tmp_path / "r").exists()
+    assert main(["-q", "rebalance", str(tmp_path / "p" / "plan.json"), "--close", "row1",
+                 "--out", str(tmp_path / "r"), "--workers", "1"]) == 0
+
+
+def test_seed_range_workers_cap_and_crew_count_before_snapping(tmp_path, capsys):
+    """Seeds outside [0, 2**32 - 1] are refused (scikit-learn's KMeans random_state range); more workers than
+    cores are capped with a warning; a crew count above the segments needing service is refused before any
+    depot is snapped; the OSM reader names a malformed coordinate instead of raising pyosmium's error."""
+    from crewcut.cli.main import main
+
+    grid = [_line([[-30.5 + 0.001 * i, 45.2], [-30.5 + 0.001 * (i + 1), 45.2]], id=f"r{i}") for i in range(3)]
+    town = _geojson(tmp_path, *grid)
+    base = ["plan", town, "--depot=-30.5,45.2", "--out", str(tmp_path / "p")]
+    assert main([*base, "--crews", "2", "--seed", str(2**32)]) == 2
+    assert main([*base, "--crews", "9"]) == 2
+    err = capsys.readouterr().err
+    assert "--seed is 4294967296" in err and "9 crews but only 3 segments need service" in err
+    assert main([*base, "--crews", "2", "--workers", "999"]) == 0
+    assert "999 workers asked for" in capsys.readouterr().err
+    osm = tmp_path / "bad.osm"
+    osm.write_text('<?xml version="1.0"?><osm version="0.6"><node id="1" lat="abc" lon="1"/></osm>')
+    assert main(["check", str(osm)]) == 2
+    assert "wrong format for coordinate" in capsys.readouterr().err

@@ -36,10 +36,12 @@ def resolve_crews(net: Network, profile: Profile, *, k: int | None = None,
         Crew ids from the config to keep (for a day when only some crews work);
         an id the config does not define is an error.
     """
+    n_required = int(np.count_nonzero(required_passes(net, profile).total))
     if k is not None:
         if isinstance(k, bool) or not isinstance(k, (int, np.integer)) or k < 1:
             raise InputError(f"`k` is {k!r}; a plan needs at least one crew",
                              "give a whole number of crews of 1 or more, e.g. 4", param="k")
+        _check_count(int(k), n_required)
         if only:
             raise InputError("`k` and `only` cannot be combined",
                              "use `k` for k identical crews, or pick config crews with `only`", param="only")
@@ -73,16 +75,20 @@ def resolve_crews(net: Network, profile: Profile, *, k: int | None = None,
                 raise InputError("a crew id is given twice in `only`", "name each crew once", param="only")
             keep = set(only)
             chosen = [c for c in profile.crews if c.id in keep]
+        _check_count(len(chosen), n_required)
         crews = [dataclasses.replace(c, shift_limit_min=float(c.shift_limit_min), depot_node=_crew_depot(net, profile, c))
                  for c in chosen]
-    n_required = int(np.count_nonzero(required_passes(net, profile).total))
+    return crews
+
+
+def _check_count(count: int, n_required: int) -> None:
+    """Before any depot is snapped: at most one crew per segment that needs service."""
     if n_required == 0:
         raise InputError("the network has no segment that needs service under this profile",
                          "check the profile's default_service per road class and the data's service tags")
-    if len(crews) > n_required:
-        raise InputError(f"{len(crews)} crews but only {n_required} segments need service",
-                         f"plan for at most {n_required} crews")
-    return crews
+    if count > n_required:
+        raise InputError(f"{count:,} crews but only {n_required:,} segments need service",
+                         f"plan for at most {n_required:,} crews")
 
 
 def _crew_depot(net: Network, profile: Profile, crew) -> int:

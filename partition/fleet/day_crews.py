@@ -13,6 +13,7 @@ import numbers
 import numpy as np
 
 from crewcut.solve.errors import InputError
+from crewcut.solve.seeds import check_seed
 from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Crew, Profile
 
@@ -33,8 +34,7 @@ def check_params(stability, overflow, tolerance, seed, time_limit_s) -> None:
         raise InputError(f"overflow mode {overflow!r} is not known", "use 'defer', 'overtime' or nothing")
     if not (isinstance(tolerance, numbers.Real) and 0 <= tolerance < 1):
         raise InputError(f"balance tolerance {tolerance!r} is outside [0, 1)", "e.g. 0.03 for 3 %")
-    if isinstance(seed, bool) or not isinstance(seed, numbers.Integral) or seed < 0:
-        raise InputError(f"`seed` is {seed!r}", "give a whole number of 0 or more", param="seed")
+    check_seed(seed)
     if time_limit_s is not None and (isinstance(time_limit_s, bool) or not isinstance(time_limit_s, numbers.Real)
                                      or not math.isfinite(time_limit_s) or time_limit_s < 0):
         raise InputError(f"`time_limit_s` is {time_limit_s!r}", "give the seconds the balancer may use, 0 or more",

@@ -24,6 +24,24 @@ from crewcut.plans.model import Plan, SegmentRecord
 _MIN_TOL = 1e-4  # minutes: the plan file rounds segment minutes to 5 decimals
 
 
+def _pieces(records) -> list[list[int]]:
+    """Segment ids grouped into the connected pieces they form (union-find on their end nodes)."""
+    parent: dict[int, int] = {}
+
+    def find(x: int) -> int:
+        while parent.setdefault(x, x) != x:
+            parent[x] = parent[parent[x]]
+            x = parent[x]
+        return x
+
+    for rec in records:
+        parent[find(rec.from_node)] = find(rec.to_node)
+    groups: dict[int, list[int]] = {}
+    for rec in records:
+        groups.setdefault(find(rec.from_node), []).append(rec.id)
+    return sorted(groups.values())
+
+
 def resolve_closures(plan: Plan, items: Iterable) -> np.ndarray:
     """Segment ids to close from segment ids (ints or whole-number strings) or feature ids (strings).
 
@@ -66,6 +84,13 @@ def resolve_closures(plan: Plan, items: Iterable) -> np.ndarray:
             raise InputError(f"closed street '{key}' does not exist: no segment of the plan's network comes "
                              f"from a feature with that id",
                              "give the feature id used in the street data, or a segment id (a whole number)")
+        pieces = _pieces([segs[i] for i in by_source[key]])
+        if len(pieces) > 1:  # one feature's segments always join up: several features share this id
+            listed = "; ".join(f"segments {', '.join(map(str, p))}" + (f" ({segs[p[0]].name})" if segs[p[0]].name
+                                                                       else "") for p in pieces[:5])
+            raise InputError(f"closed street '{key}' is ambiguous: {len(pieces)} separate streets carry that "
+                             f"feature id ({listed})", "close by segment id (a whole number) instead",
+                             param="closed")
         out.extend(by_source[key])
     ids = np.unique(np.asarray(out, np.int64))
     already = [int(s) for s in ids if segs[int(s)].closed]

@@ -15,7 +15,9 @@ its own seed, derived from the plan's seed and the job's content.
 from __future__ import annotations
 
 import hashlib
+import logging
 import os
+import signal
 from concurrent.futures import Executor, ProcessPoolExecutor
 from dataclasses import dataclass
 from typing import Protocol, Sequence
@@ -25,6 +27,8 @@ import numpy as np
 from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Profile
 from crewcut.solve.result import Route, RouteTotals
+
+_log = logging.getLogger(__name__)
 
 
 @dataclass(frozen=True)
@@ -69,6 +73,9 @@ _STATE: dict = {}
 
 
 def _init_worker(net: Network, profile: Profile, options: dict) -> None:
+    # Ctrl-C reaches the whole process group: the parent stops the pool and says so once;
+    # the workers ignore it instead of each printing a KeyboardInterrupt traceback.
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
     _STATE["net"] = net
     _STATE["profile"] = profile
     _STATE["options"] = options
@@ -102,7 +109,12 @@ class LocalRouter:
         check_workers(workers)
         self.net = net
         self.profile = profile
-        self.workers = default_workers() if workers is None else workers
+        cores = default_workers()
+        if workers is not None and workers > cores:
+            # more processes than cores only adds start-up and switching time; the plan is the same
+            _log.warning("%d workers asked for, %d used: this machine has %d cores", workers, cores, cores)
+            workers = cores
+        self.workers = cores if workers is None else workers
         self.options = {"time_limit_s": float(time_limit_s), "turn_aware": bool(turn_aware)}
         self._pool: Executor | None = None
 

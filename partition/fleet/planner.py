@@ -29,6 +29,7 @@ import math
 import numpy as np
 
 from crewcut.solve.errors import InputError
+from crewcut.solve.seeds import check_seed
 from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Crew, Profile
 from crewcut.solve.circuits.turns import TurnModel
@@ -106,8 +107,7 @@ def plan_fleet(net: Network, profile: Profile, crews: list[Crew], *, seed: int =
 def _check(crews, seed, time_limit_s, tolerance, max_iterations) -> None:
     if not crews:
         raise InputError("no crews to plan for", "give crews (`k` and `depot_lonlat`, or [[crews]] in the config)")
-    if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
-        raise InputError(f"`seed` is {seed!r}", "give a whole number of 0 or more", param="seed")
+    check_seed(seed)
     if time_limit_s is not None and not (isinstance(time_limit_s, (int, float)) and math.isfinite(time_limit_s)
                                          and time_limit_s >= 0):
         raise InputError(f"`time_limit_s` is {time_limit_s!r}", "give the seconds the balancer may use, 0 or more",

@@ -83,7 +83,7 @@ def _collect(path: Path, highways: frozenset) -> list[tuple]:
                     lat.append(np.nan)
             ways.append((obj.id, np.asarray(refs, np.int64), np.column_stack([lon, lat]) if refs else None,
                          tags.get("highway"), tags.get("name", ""), way_direction(tags)))
-    except RuntimeError as exc:
+    except (RuntimeError, ValueError, OverflowError, osmium.InvalidLocationError) as exc:  # pyosmium's errors
         raise InputError(f"{path}: not a readable OpenStreetMap file ({exc})",
                          "check that the file is complete and really .osm XML or .osm.pbf; download it again") from None
     return ways

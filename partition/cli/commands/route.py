@@ -45,8 +45,6 @@ def _depot(args, net, profile) -> tuple[int, str, str | None, float | None]:
 
 
 def run(args, ui) -> int:
-    if args.seed < 0:
-        raise InputError(f"--seed {args.seed} is negative", "give a whole number 0 or more")
     profile = load_profile(args.config)
     if args.depot:  # a malformed --depot is reported before any reading
         from crewcut.cli.args import parse_lonlat
