@@ -142,3 +142,34 @@ def test_seed_range_workers_cap_and_crew_count_before_snapping(tmp_path, capsys)
     osm.write_text('<?xml version="1.0"?><osm version="0.6"><node id="1" lat="abc" lon="1"/></osm>')
     assert main(["check", str(osm)]) == 2
     assert "wrong format for coordinate" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("edit, where", [
+    (lambda d: d["network"]["segments"][3].__setitem__("name", ["a", "list"]), r"\$\.network\.segments\[3\]\.name"),
+    (lambda d: d["crews"][0]["routes"][0]["totals"].__setitem__("total_min", "12"), r"total_min"),
+    (lambda d: d.__setitem__("settings", []), r"settings"),
+    (lambda d: d["network"]["nodes"][2].__setitem__("lon", 1e300), r"\$\.network\.nodes\[2\]\.lon is 1e\+300"),
+])
+@pytest.mark.parametrize("command", [["table"], ["sheets"], ["map"], ["report", "--out", "{o}"], ["rebalance"]])
+def test_damaged_plan_is_refused_by_every_reader(tmp_path, capsys, edit, where, command):
+    """A hand-damaged plan is checked against plan.schema.json (JSON Schema draft 2020-12) before any command
+    uses it: exit 2 with the JSON path of the first violation, nothing written."""
+    import json
+    import re
+
+    from crewcut.cli.main import main
+
+    grid = [_line([[-30.5 + 0.001 * i, 45.2], [-30.5 + 0.001 * (i + 1), 45.2]], id=f"r{i}") for i in range(4)]
+    town = _geojson(tmp_path, *grid)
+    assert main(["-q", "plan", town, "--crews", "2", "--depot=-30.5,45.2", "--out", str(tmp_path / "p"),
+                 "--workers", "1"]) == 0
+    doc = json.loads((tmp_path / "p" / "plan.json").read_text())
+    edit(doc)
+    bad = tmp_path / "bad.json"
+    bad.write_text(json.dumps(doc))
+    capsys.readouterr()
+    argv = [command[0], str(bad), *[a.format(o=tmp_path / "r.html") for a in command[1:]]]
+    assert main(argv) == 2
+    err = capsys.readouterr().err
+    assert "damaged plan file" in err and re.search(where, err), err
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["bad.json", "p", "streets.geojson"]

@@ -20,6 +20,7 @@ from crewcut.solve.errors import InputError
 from crewcut.solve.profile import Crew, Profile
 from crewcut.solve.result import Route, RouteTotals, Traversal
 
+from crewcut.plans.schema import schema_problem
 from crewcut.plans.model import (CHANGE_FIELDS, FORMAT, VERSION, BalanceLimits, BalanceOutcome, Change, CrewPlan,
                                  DeferredSegment, FleetSummary, History, NodeRecord, OverLimit, Plan, PlanNetwork,
                                  PlanSettings, ReplanLimits, RouteSummary, RunOptions, SegmentPasses, SegmentRecord,
@@ -389,7 +390,7 @@ def plan_from_dict(doc: dict, name: str = "plan") -> Plan:
     for key in ("network", "crews", "settings"):
         if key not in doc:
             raise InputError(f"{name}: plan file has no '{key}' section")
-    problem = record_problem(doc)
+    problem = record_problem(doc) or schema_problem(doc)
     if problem:
         raise InputError(f"{name}: damaged plan file: {problem}", FIX)
     try:

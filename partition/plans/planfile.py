@@ -121,4 +121,6 @@ def read_plan(path: str | Path) -> Plan:
         doc = json.loads(path.read_text(encoding="utf-8"))
     except (json.JSONDecodeError, UnicodeDecodeError) as exc:
         raise InputError(f"{path}: not a plan file (not valid JSON: {exc})") from None
+    except RecursionError:
+        raise InputError(f"{path}: not a plan file (JSON nested too deeply)") from None
     return plan_from_dict(doc, str(path))
