@@ -146,3 +146,20 @@ def test_commands_never_write_over_their_inputs(tmp_path, capsys):
         assert plan.read_bytes() == plan_bytes and town.read_bytes() == net_bytes, argv
     err = capsys.readouterr().err
     assert "never writes over its input" in err and "not a regular file" in err
+
+
+def test_full_stdout_is_an_environment_failure(tmp_path):
+    """Writing to a full device (/dev/full on Linux) exits 3 naming standard output, with no traceback."""
+    import subprocess
+    import sys
+
+    from helpers.plans import make_plan
+
+    from crewcut.plans.planfile import write_plan
+
+    plan = write_plan(make_plan(k=2), tmp_path / "plan.json")
+    with open("/dev/full", "w") as full:
+        done = subprocess.run([sys.executable, "-m", "crewcut", "table", str(plan), "--format", "csv"],
+                              stdout=full, stderr=subprocess.PIPE, text=True)
+    assert done.returncode == 3 and "standard output: No space left on device" in done.stderr
+    assert "Traceback" not in done.stderr

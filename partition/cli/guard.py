@@ -53,9 +53,10 @@ def say_error(console, message: str, hint: str = "") -> None:
 
 def os_error_message(exc: OSError) -> tuple[str, str]:
     """A located message and a fix for an operating-system error."""
-    path = exc.filename if exc.filename is not None else "a file"
     cause = exc.strerror or type(exc).__name__
-    return f"'{path}': {cause}", _ENV_HINTS.get(exc.errno or -1, "")
+    where = "standard output" if exc.filename == "standard output" else (
+        f"'{exc.filename}'" if exc.filename is not None else "a file")
+    return f"{where}: {cause}", _ENV_HINTS.get(exc.errno or -1, "")
 
 
 def _quiet_stdout() -> None:

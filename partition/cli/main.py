@@ -102,7 +102,20 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     ui = UI(quiet=getattr(args, "quiet", False))
     _log_to(ui, getattr(args, "verbose", 0))
-    return guarded(lambda: args._run(args, ui), ui.err, error_words)
+    return guarded(lambda: _run(args, ui), ui.err, error_words)
+
+
+def _run(args, ui) -> int:
+    code = args._run(args, ui)
+    try:
+        sys.stdout.flush()  # a full device or a closed pipe shows up here, inside the guard, not at exit
+    except BrokenPipeError:
+        raise
+    except OSError as exc:
+        if exc.filename is None:
+            exc.filename = "standard output"
+        raise
+    return code
 
 
 class _LogHandler(logging.Handler):

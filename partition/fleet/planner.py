@@ -36,7 +36,7 @@ from crewcut.solve.circuits.turns import TurnModel
 
 from crewcut.fleet.assemble import finish_plan, route_and_balance
 from crewcut.fleet.executor import LocalRouter, Router, check_workers
-from crewcut.fleet.progress import ProgressFn
+from crewcut.fleet.progress import ProgressFn, with_log
 from crewcut.fleet.seeding import seed_territories
 from crewcut.fleet.streets import build_street_graph, depot_travel, round_trips
 from crewcut.fleet.territories import BorderTurns, describe_segment, grow_territories, polish_borders, smooth_boundaries
@@ -93,7 +93,7 @@ def plan_fleet(net: Network, profile: Profile, crews: list[Crew], *, seed: int =
     try:
         state, bal = route_and_balance(router, sg, eligible, crews, owner, seed=seed, tolerance=tolerance,
                                        max_iterations=max_iterations, time_limit_s=time_limit_s,
-                                       progress=progress, border=border)
+                                       progress=report, border=border)
     finally:
         if own_router:
             router.close()
@@ -101,7 +101,7 @@ def plan_fleet(net: Network, profile: Profile, crews: list[Crew], *, seed: int =
                          balance=BalanceLimits(float(tolerance), int(max_iterations),
                                                None if time_limit_s is None else float(time_limit_s)),
                          route_time_limit_s=float(route_time_limit_s))
-    return finish_plan(net, profile, crews, state, bal, options=options, source=source, progress=progress)
+    return finish_plan(net, profile, crews, state, bal, options=options, source=source, progress=report)
 
 
 def _check(crews, seed, time_limit_s, tolerance, max_iterations) -> None:
@@ -142,6 +142,4 @@ def _check_reach(net: Network, sg, crews: list[Crew], eligible: np.ndarray, rt: 
 
 
 def _progress(progress: ProgressFn | None) -> ProgressFn:
-    if progress is None:
-        return lambda *a: None
-    return progress
+    return with_log(progress)

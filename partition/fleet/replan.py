@@ -91,7 +91,7 @@ from crewcut.fleet.day_crews import OVERFLOW_MODES, check_depots, check_params, 
 from crewcut.fleet.day_network import network_of_the_day, resolve_closures
 from crewcut.fleet.executor import LocalRouter, RouteJob, Router, check_workers
 from crewcut.fleet.handover import BAND, grow_extra, grow_pool, pool_quotas, release_pieces, transfers
-from crewcut.fleet.progress import ProgressFn
+from crewcut.fleet.progress import ProgressFn, with_log
 from crewcut.fleet.streets import StreetGraph, build_street_graph, depot_travel, round_trips
 from crewcut.fleet.territories import DEADHEAD_ALLOWANCE, attach_leftovers, territories_of
 from crewcut.plans.model import Change, CrewPlan, DeferredSegment, History, Plan, ReplanLimits, recorded_crew
@@ -134,7 +134,7 @@ def replan(plan: Plan, net: Network, changes: Changes, *, profile: Profile | Non
     """
     check_params(stability, overflow, tolerance, seed, time_limit_s)
     check_workers(workers)
-    report = progress or (lambda *a: None)
+    report = with_log(progress)
     profile = profile or profile_of_plan(plan)
     if route_time_limit_s is None:
         recorded = plan.settings.options.route_time_limit_s
@@ -204,7 +204,7 @@ def replan(plan: Plan, net: Network, changes: Changes, *, profile: Profile | Non
             return stability * away / float(limits[c])
 
         state, bal = route_and_balance(router, sg, eligible, crews, owner, seed=seed, tolerance=tolerance,
-                                       max_iterations=max_iterations, time_limit_s=time_limit_s, progress=progress,
+                                       max_iterations=max_iterations, time_limit_s=time_limit_s, progress=report,
                                        move_cost=move_cost if stability > 0 else None, kept=kept)
         deferred = (_defer(state, sg, router, today, profile, rt, seed, [c.id for c in crews])
                     if overflow == "defer" else None)
@@ -220,7 +220,7 @@ def replan(plan: Plan, net: Network, changes: Changes, *, profile: Profile | Non
     history = _history(plan, parent, crews, changes, closed, added, today, stability, overflow)
     source = plan.network.source if source is None else source
     return finish_plan(today, profile, crews, state, bal, options=options, source=source, method=REPLAN_METHOD,
-                       history=history, deferred=deferred, progress=progress)
+                       history=history, deferred=deferred, progress=report)
 
 
 def _keeps_route(old: CrewPlan, terr: np.ndarray, depot: int, today: Network) -> bool:

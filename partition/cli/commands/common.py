@@ -132,15 +132,28 @@ def measure_table(title: str):
     return t
 
 
-def write_or_print(ui, out: str | None, text: str) -> int:
-    """Write ``text`` atomically to ``out`` (checked with :func:`out_file`) and say so, or to stdout."""
+def print_text(text: str) -> None:
+    """Output text on standard output; a failure names standard output (a full device, say)."""
     import sys
 
+    try:
+        sys.stdout.write(text)
+        sys.stdout.flush()
+    except BrokenPipeError:
+        raise
+    except OSError as exc:
+        if exc.filename is None:
+            exc.filename = "standard output"
+        raise
+
+
+def write_or_print(ui, out: str | None, text: str) -> int:
+    """Write ``text`` atomically to ``out`` (checked with :func:`out_file`) and say so, or to stdout."""
     from crewcut.files import atomic_write
 
     if out:
         atomic_write(out, text)
         ui.out.print(f"wrote {out}")
     else:
-        sys.stdout.write(text)
+        print_text(text)
     return 0

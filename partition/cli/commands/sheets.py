@@ -1,10 +1,9 @@
 """``crewcut sheets PLAN``: route sheets (ordered streets, turns, headings, distances, times) per crew."""
 from __future__ import annotations
 
-import sys
 
 
-from crewcut.cli.commands.common import plan_inputs
+from crewcut.cli.commands.common import plan_inputs, print_text
 from crewcut.cli.outputs import check_folder
 from crewcut.files import atomic_write_many
 from crewcut.plans.view import load
@@ -30,7 +29,7 @@ def run(args, ui) -> int:
     crews = pv.select(args.crew)
     files = sheet_files(pv, crews, args.format)  # everything rendered before anything is written
     if not args.out:
-        sys.stdout.write("\n".join(text for _n, text in files))
+        print_text("\n".join(text for _n, text in files))
         return 0
     out = check_folder(args.out, [name for name, _ in files], plan_inputs(args.plan, pv))
     for path in atomic_write_many([(out / name, text) for name, text in files]):

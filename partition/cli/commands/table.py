@@ -1,10 +1,10 @@
 """``crewcut table PLAN``: the per-crew workload table of a plan, for the terminal or for other programs."""
 from __future__ import annotations
 
-import sys
 
 from crewcut.cli.tables import workload_table
 from crewcut.plans.view import load
+from crewcut.cli.commands.common import print_text
 from crewcut.reports.workload import TEXT_FORMATS, workload_text
 
 NAME = "table"
@@ -23,5 +23,5 @@ def run(args, ui) -> int:
     if args.format == "terminal":
         ui.out.print(workload_table(pv))
     else:
-        sys.stdout.write(workload_text(pv, args.format))
+        print_text(workload_text(pv, args.format))
     return 0
