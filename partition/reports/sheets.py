@@ -309,7 +309,7 @@ def sheet_names(ids: list[str]) -> dict[str, str]:
     return out
 
 
-def sheet_files(pv: PlanView, crews: list[dict], form: str) -> list[tuple[str, str]]:
+def sheet_files(pv: Plan | PlanView, crews: list[CrewPlan] | tuple[CrewPlan, ...], form: str) -> list[tuple[str, str]]:
     """The sheets of ``crews`` as (file name, text) pairs in a :data:`SHEET_FORMATS` form.
 
     txt and md give one file per crew (``sheet-<crew>.<form>``, the crew id made
@@ -318,6 +318,7 @@ def sheet_files(pv: PlanView, crews: list[dict], form: str) -> list[tuple[str, s
     """
     if form not in SHEET_FORMATS:
         raise ValueError(f"unknown sheet format {form!r}; one of {', '.join(SHEET_FORMATS)}")
+    pv = view(pv)
     sheets = crew_sheets(pv, crews)
     if form == "html":
         from crewcut.reports.svgmap import crew_colours

@@ -19,7 +19,8 @@ anything. Each writer passes them through the function for its format:
   characters that open inline markup anywhere in a line (code spans, emphasis,
   links and images, GFM strikethrough: backslash, backtick, ``* _ [ ] ~``) are
   backslash-escaped (CommonMark section 2.4), and line breaks become spaces (a
-  line break ends a table row). Characters that mean something only at the start
+  line break ends a table row); control characters go as in :func:`terminal_text`
+  and noncharacters as in :func:`html_text`. Characters that mean something only at the start
   of a line (``# - + >``, digits) are left alone: this text never starts a line
   of crewcut's Markdown (it follows ``| ``, ``- `` or a heading's own words).
 * :func:`html_text`: HTML5 text must not hold control characters other than
@@ -90,7 +91,8 @@ def csv_cell(value):
 def markdown_text(text: str) -> str:
     """``text`` for a Markdown table cell or line: no raw HTML, no markup, no line break."""
     flat = " ".join(str(text).splitlines())
-    return _MARKDOWN_SPECIAL.sub(r"\\\1", html.escape(terminal_text(flat), quote=False))
+    flat = _NONCHAR.sub(REPLACEMENT, terminal_text(flat))  # Markdown becomes HTML: what HTML may not hold goes
+    return _MARKDOWN_SPECIAL.sub(r"\\\1", html.escape(flat, quote=False))
 
 
 def terminal_text(text: str) -> str:
