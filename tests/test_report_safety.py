@@ -284,3 +284,49 @@ def test_sheet_names_are_unique_even_ignoring_case():
     assert len({n.lower() for n in names.values()}) == len(ids)
     assert all(SAFE_NAME.fullmatch(n) for n in names.values())
     assert names["n-1"] == "n-1" and names == sheet_names(ids)  # no clash, no change; same ids, same names
+
+
+@pytest.mark.parametrize("where, edit", [
+    ("network.segments[0].name", lambda d: d["network"]["segments"][0].__setitem__("name", "a\ud800b")),
+    ("network.nodes[1].label", lambda d: d["network"]["nodes"][1].__setitem__("label", "\udfff")),
+])
+def test_plan_file_with_an_unpaired_surrogate_is_refused(tmp_path, where, edit):
+    # RFC 8259 section 8.2: a lone \uD800-\uDFFF escape is allowed by JSON's grammar but is no character,
+    # so no UTF-8 output could hold it; Python's json reads it, the plan reader refuses the file
+    doc = json.loads(plan_to_json(make_plan(k=2)))
+    edit(doc)
+    path = tmp_path / "plan.json"
+    path.write_text(json.dumps(doc), encoding="ascii")  # ensure_ascii: the surrogate as a \\u escape
+    with pytest.raises(InputError, match=re.escape(where) + ".*unpaired surrogate"):
+        read_plan(path)
+
+
+def test_plan_file_with_escaped_pairs_still_reads(tmp_path):
+    doc = json.loads(plan_to_json(make_plan(k=2)))
+    doc["network"]["segments"][0]["name"] = "Rose Street \U0001f339"  # written as a surrogate pair escape
+    path = tmp_path / "plan.json"
+    path.write_text(json.dumps(doc), encoding="ascii")
+    assert read_plan(path).network.segments[0].name == "Rose Street \U0001f339"
+
+
+def test_command_line_refuses_a_bad_crew_id_and_notes_replacements(tmp_path, capsys):
+    from crewcut.cli.main import main
+    doc = json.loads(plan_to_json(make_plan(k=2)))
+    doc["crews"][0]["id"] = "\x1b]0;t\x07"
+    bad = tmp_path / "bad.json"
+    bad.write_text(json.dumps(doc), encoding="utf-8")
+    before = bad.read_bytes()
+    for argv in (["map", str(bad), "--out", str(tmp_path / "m.svg")],
+                 ["sheets", str(bad), "--format", "txt", "--out", str(tmp_path / "s")]):
+        assert main(argv) == 2
+        err = capsys.readouterr().err
+        assert "crews[0]" in err and "not printable" in err and "Traceback" not in err and "\x1b" not in err
+    assert bad.read_bytes() == before and not (tmp_path / "m.svg").exists() and not (tmp_path / "s").exists()
+    # a source name holding NUL and ESC: the GPX is written, valid, and the command says what was replaced
+    doc = json.loads(plan_to_json(make_plan(k=2)))
+    doc["network"]["source"] = "town\x00\x1b.geojson"
+    src = tmp_path / "src.json"
+    src.write_text(json.dumps(doc), encoding="utf-8")
+    assert main(["export", str(src), "--format", "gpx", "--out", str(tmp_path / "r.gpx")]) == 0
+    assert "2 characters that XML 1.0 cannot hold were replaced" in capsys.readouterr().err
+    gpxpy.parse((tmp_path / "r.gpx").read_text(encoding="utf-8"))

@@ -135,6 +135,13 @@ def to_csv(pv: Plan | PlanView) -> str:
 
 
 def export(pv: Plan | PlanView, form: str) -> str:
+    return export_document(pv, form).text
+
+
+def export_document(pv: Plan | PlanView, form: str) -> SafeText:
+    """The plan in one of :data:`FORMATS`, with the count of characters XML could not hold (GPX only)."""
     if form not in FORMATS:
         raise ValueError(f"unknown export format {form!r}; allowed: {', '.join(FORMATS)}")
-    return {"geojson": to_geojson, "gpx": to_gpx, "csv": to_csv}[form](pv)
+    if form == "gpx":
+        return gpx_document(pv)
+    return SafeText({"geojson": to_geojson, "csv": to_csv}[form](pv))

@@ -2,8 +2,8 @@
 from __future__ import annotations
 
 
-from crewcut.reports.exports import FORMATS, export
-from crewcut.cli.commands.common import write_or_print
+from crewcut.reports.exports import FORMATS, export_document
+from crewcut.cli.commands.common import styled, write_or_print
 from crewcut.plans.view import load
 
 NAME = "export"
@@ -18,5 +18,7 @@ def add_arguments(p) -> None:
 
 def run(args, ui) -> int:
     pv = load(args.plan)
-    text = export(pv, args.format)
-    return write_or_print(ui, args.out, text)
+    doc = export_document(pv, args.format)
+    if doc.note:  # characters of names or ids that XML cannot hold were replaced
+        ui.err.print(styled(f"note: {doc.note}", "yellow"))
+    return write_or_print(ui, args.out, doc.text)
