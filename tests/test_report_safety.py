@@ -59,6 +59,8 @@ def _hostile_doc() -> dict:
     doc = json.loads(plan_to_json(make_plan(k=3)))
     for i, seg in enumerate(doc["network"]["segments"]):
         seg["name"] = NAMES[i % len(NAMES)]
+    for i, node in enumerate(doc["network"]["nodes"]):  # depot names are "node N (label)"
+        node["label"] = NAMES[(i + 1) % len(NAMES)]
     doc["network"]["source"] = SOURCE
     text = json.dumps(doc)
     for old, new in zip(["crew-A", "crew-B", "crew-C"], CREWS):
@@ -73,6 +75,21 @@ def hostile(tmp_path_factory):
     plan = read_plan(path)
     assert [c.id for c in plan.crews] == CREWS and any(s.name == LONG for s in plan.network.segments)
     return plan
+
+
+@pytest.fixture(scope="module")
+def hostile_path(hostile, tmp_path_factory):
+    path = tmp_path_factory.mktemp("hostile-file") / "plan.json"
+    path.write_text(json.dumps(_hostile_doc(), ensure_ascii=False), encoding="utf-8")
+    return path
+
+
+def test_terminal_table_holds_no_control_or_override_characters(hostile_path, capsys):
+    from crewcut.cli.main import main
+    assert main(["table", str(hostile_path)]) == 0
+    out = capsys.readouterr().out
+    assert "=1+2<script>" in out  # crew ids are shown as they are (the terminal runs no markup)
+    assert not re.search("[\x00-\x08\x0b-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]", out)
 
 
 def _parse_xml(text: str) -> ET.Element:
