@@ -291,12 +291,13 @@ def sheet_names(ids: list[str]) -> dict[str, str]:
     """A slug per distinct id, unique even on a file system that ignores case.
 
     Ids whose slugs would coincide (ignoring case) are all tagged with a hash of
-    the full id, longer until they are told apart.
+    the full id, longer until they are told apart (at most 32 hex digits, so the
+    name stays within :data:`SLUG_MAX`).
     """
     ids = list(dict.fromkeys(ids))
     out = {i: slug(i) for i in ids}
     n = 8
-    while n <= 64:
+    while n <= 32:
         groups: dict[str, list[str]] = {}
         for i in ids:
             groups.setdefault(out[i].lower(), []).append(i)
