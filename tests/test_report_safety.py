@@ -347,3 +347,19 @@ def test_command_line_refuses_a_bad_crew_id_and_notes_replacements(tmp_path, cap
     assert main(["export", str(src), "--format", "gpx", "--out", str(tmp_path / "r.gpx")]) == 0
     assert "2 characters that XML 1.0 cannot hold were replaced" in capsys.readouterr().err
     gpxpy.parse((tmp_path / "r.gpx").read_text(encoding="utf-8"))
+
+
+@pytest.mark.parametrize("key", ["name", "id", "class"])
+def test_street_file_with_an_unpaired_surrogate_is_refused(tmp_path, key):
+    # RFC 8259 section 8.2, as above: the reader refuses it, naming the feature and the property,
+    # instead of failing later when the plan file is written
+    from crewcut.solve.readers import read_network
+    props = {"id": "elm", "name": "Elm Street", "class": "residential", key: "Elm \ud800"}
+    feature = {"type": "Feature", "properties": props,
+               "geometry": {"type": "LineString", "coordinates": [[-30.5, 45.2], [-30.5, 45.201]]}}
+    path = tmp_path / "streets.geojson"
+    path.write_text(json.dumps({"type": "FeatureCollection", "features": [feature]}), encoding="ascii")
+    before = path.read_bytes()
+    with pytest.raises(InputError, match=rf"features\[0\]: '{key}' holds an unpaired surrogate"):
+        read_network(str(path), Profile())
+    assert path.read_bytes() == before
