@@ -46,6 +46,37 @@ SNAP_TOLERANCE_MAX_M = 50.0
 DEPOT_SNAP_MAX_M = 100_000.0
 PRIORITY_RANGE = (0, 100)
 _CREW_KEYS = {"id": str, "depot": list, "depot_node": int, "shift_limit_min": (int, float)}
+# A crew id names files, map labels and route sheets and is read on a screen in the cab:
+# short and printable (common practice, no source; "printable" as Python's str.isprintable,
+# which follows the Unicode categories: no control, format, surrogate, unassigned or
+# separator character other than the space).
+CREW_ID_MAX = 64
+CREW_ID_HINT = f"use printable characters only, on one line, at most {CREW_ID_MAX} characters, e.g. north-1"
+
+
+def crew_id_shown(cid: str) -> str:
+    """A crew id quoted for a message: escapes visible, cut to 40 characters."""
+    return repr(cid[:40]) + (f"... ({len(cid)} characters)" if len(cid) > 40 else "")
+
+
+def crew_id_problem(cid) -> str | None:
+    """What is wrong with a crew id (``"crew id '...' ..."``), or None when it is acceptable.
+
+    Acceptable: a string, not empty after stripping spaces, at most
+    :data:`CREW_ID_MAX` characters, without line breaks and printable.
+    """
+    if not isinstance(cid, str):
+        return f"crew id {cid!r} is not text"
+    if not cid.strip():
+        return "crew id is empty"
+    if len(cid) > CREW_ID_MAX:
+        return f"crew id {crew_id_shown(cid)} is longer than {CREW_ID_MAX} characters"
+    for ch in cid:
+        if ch in "\n\r\v\f\x1c\x1d\x1e\x85\u2028\u2029":
+            return f"crew id {crew_id_shown(cid)} holds a line break (U+{ord(ch):04X})"
+        if not ch.isprintable():
+            return f"crew id {crew_id_shown(cid)} holds a character that is not printable (U+{ord(ch):04X})"
+    return None
 
 
 @dataclass(frozen=True)
@@ -231,6 +262,9 @@ def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
         if "id" not in c or not c["id"].strip():
             raise InputError(f"{where} has no 'id'", "give each crew a unique id, e.g. id = \"north\"")
         cid = c["id"].strip()
+        problem = crew_id_problem(cid)
+        if problem:
+            raise InputError(f"{where}: {problem}", CREW_ID_HINT)
         if cid in seen:
             raise InputError(f"{where}: crew id '{cid}' is used twice", "crew ids must be unique")
         seen.add(cid)

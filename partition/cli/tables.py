@@ -6,6 +6,7 @@ from rich.text import Text
 
 from crewcut.plans.model import Plan
 from crewcut.plans.view import PlanView, view
+from crewcut.reports.textsafety import terminal_text
 from crewcut.reports.workload import COLUMNS, fmt, summary_lines, workload_rows
 
 
@@ -23,5 +24,5 @@ def workload_table(plan: Plan | PlanView) -> Table:
         if over:
             cells[-1] += " !"
         style = "bold red" if over else ("bold" if r["row"] == "total" else None)
-        table.add_row(*[Text(c) for c in cells], style=style, end_section=len(rows) > 1 and r is rows[-2])
+        table.add_row(*[Text(terminal_text(c)) for c in cells], style=style, end_section=len(rows) > 1 and r is rows[-2])
     return table

@@ -15,7 +15,7 @@ import numpy as np
 from crewcut.solve.errors import InputError
 from crewcut.solve.seeds import check_seed
 from crewcut.solve.network.model import Network
-from crewcut.solve.profile import Crew, Profile
+from crewcut.solve.profile import CREW_ID_HINT, crew_id_problem, Crew, Profile
 
 from crewcut.fleet.changes import Changes
 from crewcut.fleet.streets import StreetGraph
@@ -62,6 +62,9 @@ def crews_of_the_day(plan: Plan, today: Network, profile: Profile, changes: Chan
             raise InputError(f"extra crew {item!r} in `added_crews` is not a crew", "give each extra crew as a Crew",
                              param="added_crews")
         cid = str(item.id).strip()
+        problem = crew_id_problem(cid) if cid else None
+        if problem:
+            raise InputError(f"extra {problem} (`added_crews`)", CREW_ID_HINT, param="added_crews")
         if not cid:
             raise InputError("an extra crew in `added_crews` has an empty id", "give each extra crew an id, e.g. relief",
                              param="added_crews")

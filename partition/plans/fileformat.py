@@ -17,7 +17,7 @@ import math
 import numpy as np
 
 from crewcut.solve.errors import InputError
-from crewcut.solve.profile import Crew, Profile
+from crewcut.solve.profile import Crew, Profile, crew_id_problem
 from crewcut.solve.result import Route, RouteTotals, Traversal
 
 from crewcut.plans.schema import schema_problem
@@ -220,10 +220,13 @@ def record_problem(plan: dict) -> str | None:
     if not isinstance(crews, list):
         return "'crews' is not a list"
     seen: set[str] = set()
-    for c in crews:
+    for i, c in enumerate(crews):
         cid = c.get("id") if isinstance(c, dict) else None
         if not isinstance(cid, str) or not cid:
             return "a crew record has no id"
+        problem = crew_id_problem(cid)  # what the config allows (printable, one line, short)
+        if problem:
+            return f"crews[{i}]: {problem}"
         if cid in seen:
             return f"crew id '{cid}' appears twice"
         seen.add(cid)

@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import re
 from pathlib import Path
 
 from crewcut.solve.costs import Passes, deadhead_minutes, required_passes, service_minutes
@@ -118,9 +119,36 @@ def read_plan(path: str | Path) -> Plan:
     if not path.is_file():
         raise InputError(f"plan file '{path}' not found", "give the plan.json written by 'crewcut plan'")
     try:
-        doc = json.loads(path.read_text(encoding="utf-8"))
+        text = path.read_text(encoding="utf-8")
+        doc = json.loads(text)
     except (json.JSONDecodeError, UnicodeDecodeError) as exc:
         raise InputError(f"{path}: not a plan file (not valid JSON: {exc})") from None
     except RecursionError:
         raise InputError(f"{path}: not a plan file (JSON nested too deeply)") from None
+    where = unpaired_surrogate(doc) if _SURROGATE_ESCAPE.search(text) else None
+    if where:  # JSON lets a \uD800-\uDFFF escape stand alone; no UTF-8 text (and so no output) can hold it
+        raise InputError(f"{path}: damaged plan file: {where} holds an unpaired surrogate escape "
+                         "(\\uD800-\\uDFFF without its pair), which is not a character", FIX)
     return plan_from_dict(doc, str(path))
+
+
+_SURROGATE_ESCAPE = re.compile(r"\\u[dD][89a-fA-F]")
+
+
+def unpaired_surrogate(doc, where: str = "the document") -> str | None:
+    """Where in a JSON document (``network.segments[3].name``) a string holds an unpaired surrogate; None if nowhere."""
+    if isinstance(doc, str):
+        return where if any("\ud800" <= ch <= "\udfff" for ch in doc) else None
+    if isinstance(doc, dict):
+        for k, v in doc.items():
+            shown = str(k).encode("utf-8", "backslashreplace").decode("utf-8")
+            w = shown if where == "the document" else f"{where}.{shown}"
+            found = unpaired_surrogate(k, f"{w} (a key)") or unpaired_surrogate(v, w)
+            if found:
+                return found
+    elif isinstance(doc, list):
+        for i, v in enumerate(doc):
+            found = unpaired_surrogate(v, f"{where}[{i}]")
+            if found:
+                return found
+    return None

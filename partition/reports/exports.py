@@ -14,16 +14,24 @@
   the passes the routes serve.
 
 Coordinates are written with 7 decimals (about 1 cm), as in the plan file.
+
+Street names, crew ids and the plan's title may hold anything. In GPX they pass
+through :class:`crewcut.reports.textsafety.XmlEscaper` (characters XML 1.0
+cannot hold become U+FFFD, and the file's metadata ``<desc>`` then says how
+many); in CSV every text cell passes through
+:func:`crewcut.reports.textsafety.csv_cell` (OWASP, "CSV Injection": a cell
+starting with = + - @ tab or CR is quoted so that no spreadsheet runs it as a
+formula; numbers stay numbers).
 """
 from __future__ import annotations
 
 import csv
 import io
 import json
-from xml.sax.saxutils import escape
 
 from crewcut.plans.model import Plan, route_id
 from crewcut.plans.view import PlanView, view
+from crewcut.reports.textsafety import SafeText, XmlEscaper, csv_cell, xml_note
 from crewcut.solve.result import Route
 
 FORMATS = ("geojson", "gpx", "csv")
@@ -71,31 +79,39 @@ def to_gpx(pv: Plan | PlanView) -> str:
     points and could cut through streets the crew must serve; a track is
     followed as drawn.
     """
+    return gpx_document(pv).text
+
+
+def gpx_document(pv: Plan | PlanView) -> SafeText:
+    """:func:`to_gpx` with the count of characters XML 1.0 could not hold (``replaced``)."""
     pv = view(pv)
     pv.need_geometry()
+    esc = XmlEscaper()
     out = ['<?xml version="1.0" encoding="UTF-8"?>',
            '<gpx version="1.1" creator="crewcut" xmlns="http://www.topografix.com/GPX/1/1" '
            'xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance" '
            'xsi:schemaLocation="http://www.topografix.com/GPX/1/1 http://www.topografix.com/GPX/1/1/gpx.xsd">',
-           f"<metadata><name>{escape(pv.title)}</name></metadata>"]
+           f"<metadata><name>{esc.text(pv.title)}</name></metadata>"]
     for c in pv.crews:  # GPX 1.1 puts every wpt before the first trk
         at = pv.node_lonlat(c.depot_node)
         if at is not None:
-            out.append(f'<wpt lat="{at[1]:.7f}" lon="{at[0]:.7f}"><name>{escape(c.id)} depot</name></wpt>')
+            out.append(f'<wpt lat="{at[1]:.7f}" lon="{at[0]:.7f}"><name>{esc.text(c.id)} depot</name></wpt>')
     for c in pv.crews:
         for i, r in enumerate(c.routes):
             t = _totals(r)
             out.append("<trk>")
-            out.append(f"<name>{escape(c.id)} {escape(route_id(i))}</name>")
+            out.append(f"<name>{esc.text(c.id)} {esc.text(route_id(i))}</name>")
             desc = f"serve {t['service_km']:.2f} km, drive {t['deadhead_km']:.2f} km, {t['total_min']:.0f} min"
-            out.append(f"<desc>{escape(desc)}</desc>")
+            out.append(f"<desc>{esc.text(desc)}</desc>")
             out.append("<trkseg>")
             for lon, lat in pv.route_coords(r):
                 out.append(f'<trkpt lat="{lat:.7f}" lon="{lon:.7f}"></trkpt>')
             out.append("</trkseg>")
             out.append("</trk>")
     out.append("</gpx>")
-    return "\n".join(out) + "\n"
+    if esc.replaced:  # GPX 1.1 metadataType: <desc> follows <name>
+        out[2] = out[2].replace("</name></metadata>", f"</name><desc>{xml_note(esc.replaced)}</desc></metadata>")
+    return SafeText("\n".join(out) + "\n", esc.replaced)
 
 
 def to_csv(pv: Plan | PlanView) -> str:
@@ -112,13 +128,20 @@ def to_csv(pv: Plan | PlanView) -> str:
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(["segment_id", "source_id", "name", "crew", "passes_required", "passes_served"])
-    for s in pv.segments:
-        w.writerow([s.id, s.source_id, s.name, ";".join(sorted(crews_of.get(s.id, []))), s.passes.total,
-                    served[s.id]])
+    for s in pv.segments:  # csv_cell: OWASP "CSV Injection" (no text cell a spreadsheet would run)
+        w.writerow([csv_cell(x) for x in (s.id, s.source_id, s.name, ";".join(sorted(crews_of.get(s.id, []))),
+                                          s.passes.total, served[s.id])])
     return buf.getvalue()
 
 
 def export(pv: Plan | PlanView, form: str) -> str:
+    return export_document(pv, form).text
+
+
+def export_document(pv: Plan | PlanView, form: str) -> SafeText:
+    """The plan in one of :data:`FORMATS`, with the count of characters XML could not hold (GPX only)."""
     if form not in FORMATS:
         raise ValueError(f"unknown export format {form!r}; allowed: {', '.join(FORMATS)}")
-    return {"geojson": to_geojson, "gpx": to_gpx, "csv": to_csv}[form](pv)
+    if form == "gpx":
+        return gpx_document(pv)
+    return SafeText({"geojson": to_geojson, "csv": to_csv}[form](pv))

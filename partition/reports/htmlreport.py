@@ -4,14 +4,17 @@ Everything is inline (CSS, SVG maps); nothing is fetched, so the file opens the
 same on a laptop in the yard without a network. On paper the overview (table and
 territory map) fills the first page and every crew starts on a page of its own
 (its route map, then its route sheet).
+
+Crew ids, street names and the title pass through
+:func:`crewcut.reports.textsafety.html_text` (no control characters, escaped);
+the inline maps escape their own text for XML.
 """
 from __future__ import annotations
-
-import html
 
 from crewcut.plans.model import Plan
 from crewcut.plans.view import PlanView, view
 from crewcut.reports.sheets import crew_sheets, html_document, to_html_section
+from crewcut.reports.textsafety import html_text
 from crewcut.reports.svgmap import crew_colours, route_svg, territory_svg
 from crewcut.reports.workload import COLUMNS, fmt, summary_lines, workload_rows
 
@@ -38,7 +41,7 @@ nav.toc a { margin-right: 1em; }
 
 
 def _load_table(pv: PlanView) -> str:
-    e = html.escape
+    e = html_text
     colours = crew_colours(pv)
     rows = workload_rows(pv)
     head = "".join(f"<th>{e(h)}</th>" for _k, h, _j in COLUMNS)
@@ -62,7 +65,7 @@ def _load_table(pv: PlanView) -> str:
 def report_html(pv: Plan | PlanView) -> str:
     """The whole report as one HTML document (a string; same plan, same bytes)."""
     pv = view(pv)
-    e = html.escape
+    e = html_text
     colours = crew_colours(pv)
     n_req = sum(1 for s in pv.segments if s.passes.total > 0)
     parts = [f"<h1>Street work plan &ndash; {e(pv.title)}</h1>",

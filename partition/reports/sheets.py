@@ -11,16 +11,25 @@ driver hears them: with / across traffic become right / left according to the
 plan's traffic side. The heading is the 8-point compass direction from the
 line's first point to its last (of its first traversal when the line closes on
 itself), computed with the spherical initial-bearing formula.
+
+Street names and crew ids come from the user's data and may hold anything: the
+text sheet drops control characters and line breaks
+(:func:`crewcut.reports.textsafety.terminal_text`), the Markdown sheet escapes
+HTML, markup and line breaks (:func:`crewcut.reports.textsafety.markdown_text`)
+and the HTML sheet drops what HTML text may not hold before escaping
+(:func:`crewcut.reports.textsafety.html_text`). File names made from crew ids
+(:func:`slug`, :func:`sheet_names`) hold only ASCII letters, digits, ``-`` and ``_``.
 """
 from __future__ import annotations
 
-import html
+import hashlib
 import math
 import re
 from dataclasses import dataclass, field
 
 from crewcut.plans.model import CrewPlan, Plan, route_id
 from crewcut.plans.view import PlanView, view
+from crewcut.reports.textsafety import html_text, markdown_text, terminal_text
 from crewcut.solve.result import Route
 
 UNNAMED = "unnamed street"
@@ -170,12 +179,17 @@ def _intro(sheet: Sheet) -> list[str]:
             f"drive without serving {sheet.deadhead_km:.2f} km; {n} lines"]
 
 
+def plain_text(text: str) -> str:
+    """``text`` for one line of a plain-text sheet: no control characters, line breaks or tabs."""
+    return terminal_text(" ".join(str(text).splitlines())).replace("\t", " ")
+
+
 def to_text(sheet: Sheet) -> str:
-    cells = [list(HEAD)] + _cells(sheet)
+    cells = [list(HEAD)] + [[plain_text(c) for c in r] for r in _cells(sheet)]
     widths = [max(len(r[i]) for r in cells) for i in range(len(HEAD))]
     right = {0, 5, 6}
-    title = f"Route sheet - {sheet.crew}, {sheet.route}"
-    out = [title, "=" * len(title)] + _intro(sheet) + [""]
+    title = f"Route sheet - {plain_text(sheet.crew)}, {plain_text(sheet.route)}"
+    out = [title, "=" * len(title)] + [plain_text(x) for x in _intro(sheet)] + [""]
     for k, r in enumerate(cells):
         out.append("  ".join(c.rjust(widths[i]) if i in right else c.ljust(widths[i]) for i, c in enumerate(r)).rstrip())
         if k == 0:
@@ -184,8 +198,7 @@ def to_text(sheet: Sheet) -> str:
 
 
 def to_markdown(sheet: Sheet) -> str:
-    def esc(t: str) -> str:
-        return t.replace("|", "\\|")
+    esc = markdown_text
     out = [f"## Route sheet - {esc(sheet.crew)}, {esc(sheet.route)}", ""] + [f"- {esc(x)}" for x in _intro(sheet)] + [""]
     out.append("| " + " | ".join(HEAD) + " |")
     out.append("|" + "|".join("---:" if i in (0, 5, 6) else ":---" for i in range(len(HEAD))) + "|")
@@ -211,7 +224,7 @@ table.steps tr { break-inside: avoid; page-break-inside: avoid; }
 
 def to_html_section(sheet: Sheet, colour: str | None = None, extra: str = "") -> str:
     """One sheet as an HTML <section> (no document around it)."""
-    e = html.escape
+    e = html_text
     style = f' style="--crew: {colour}"' if colour else ""
     out = [f'<section class="sheet"{style} id="sheet-{e(slug(sheet.crew))}-{e(slug(sheet.route))}">',
            f"<h2>Route sheet &ndash; {e(sheet.crew)}, {e(sheet.route)}</h2>",
@@ -231,7 +244,7 @@ def to_html_section(sheet: Sheet, colour: str | None = None, extra: str = "") ->
 def html_document(title: str, body: str, css: str = "") -> str:
     """A self-contained HTML document (inline CSS, nothing fetched)."""
     return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
-            f"<title>{html.escape(title)}</title>\n<style>\n{BASE_CSS}{SHEET_CSS}{css}</style>\n</head>\n"
+            f"<title>{html_text(title)}</title>\n<style>\n{BASE_CSS}{SHEET_CSS}{css}</style>\n</head>\n"
             f"<body>\n{body}\n</body>\n</html>\n")
 
 
@@ -243,21 +256,70 @@ body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; color: 
 """
 
 
-def slug(text: str) -> str:
-    """A file-name-safe form of a crew or route id."""
-    s = re.sub(r"[^A-Za-z0-9_.-]+", "_", text).strip("._")
-    return s or "crew"
+SLUG_MAX = 40  # characters of a slug, its hash included
 
 
-def sheet_files(pv: PlanView, crews: list[dict], form: str) -> list[tuple[str, str]]:
+def id_hash(text: str, n: int = 8) -> str:
+    """The first ``n`` hex digits of the SHA-256 of ``text`` (UTF-8): a short, stable tag of a full id."""
+    return hashlib.sha256(str(text).encode("utf-8", "surrogatepass")).hexdigest()[:n]
+
+
+def slug(text: str, n: int = 8) -> str:
+    """A file-name-safe form of a crew or route id: ASCII letters, digits, ``-`` and ``_``, at most 40 characters.
+
+    An id that is already such a name (and not longer) is kept as it is; any
+    other id is cut down to those characters and tagged with :func:`id_hash` of
+    the full id (``n`` hex digits), so that two ids never share a slug by being
+    shortened or cleaned alike.
+    """
+    text = str(text)
+    if _SAFE_NAME.fullmatch(text) and len(text) <= SLUG_MAX:
+        return text
+    return _tagged(text, n)
+
+
+_SAFE_NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_-]*")
+
+
+def _tagged(text: str, n: int) -> str:
+    """The id cut down to safe characters (at most ``SLUG_MAX - n - 1``) and its hash."""
+    s = re.sub(r"[^A-Za-z0-9_-]+", "_", text).strip("_-")[:SLUG_MAX - n - 1].rstrip("_-")
+    return (s or "crew") + "-" + id_hash(text, n)
+
+
+def sheet_names(ids: list[str]) -> dict[str, str]:
+    """A slug per distinct id, unique even on a file system that ignores case.
+
+    Ids whose slugs would coincide (ignoring case) are all tagged with a hash of
+    the full id, longer until they are told apart (at most 32 hex digits, so the
+    name stays within :data:`SLUG_MAX`).
+    """
+    ids = list(dict.fromkeys(ids))
+    out = {i: slug(i) for i in ids}
+    n = 8
+    while n <= 32:
+        groups: dict[str, list[str]] = {}
+        for i in ids:
+            groups.setdefault(out[i].lower(), []).append(i)
+        clash = [i for g in groups.values() if len(g) > 1 for i in g]
+        if not clash:
+            return out
+        for i in clash:
+            out[i] = _tagged(i, n)
+        n *= 2
+    return out
+
+
+def sheet_files(pv: Plan | PlanView, crews: list[CrewPlan] | tuple[CrewPlan, ...], form: str) -> list[tuple[str, str]]:
     """The sheets of ``crews`` as (file name, text) pairs in a :data:`SHEET_FORMATS` form.
 
     txt and md give one file per crew (``sheet-<crew>.<form>``, the crew id made
-    safe for a file name, kept apart when two ids give the same safe form); html
+    safe for a file name by :func:`sheet_names`: unique, short, ASCII); html
     gives one document, ``sheets.html``, with a printed page per crew.
     """
     if form not in SHEET_FORMATS:
         raise ValueError(f"unknown sheet format {form!r}; one of {', '.join(SHEET_FORMATS)}")
+    pv = view(pv)
     sheets = crew_sheets(pv, crews)
     if form == "html":
         from crewcut.reports.svgmap import crew_colours
@@ -266,11 +328,7 @@ def sheet_files(pv: PlanView, crews: list[dict], form: str) -> list[tuple[str, s
         return [("sheets.html", html_document(f"Route sheets - {pv.title}", body))]
     fn = to_markdown if form == "md" else to_text
     files: dict[str, list[str]] = {}
-    used: dict[str, str] = {}
+    names = sheet_names([s.crew for s in sheets])
     for s in sheets:
-        base = slug(s.crew)
-        while base in used and used[base] != s.crew:  # two ids with the same safe form
-            base += "_"
-        used[base] = s.crew
-        files.setdefault(f"sheet-{base}.{form}", []).append(fn(s))
+        files.setdefault(f"sheet-{names[s.crew]}.{form}", []).append(fn(s))
     return [(name, "\n".join(parts)) for name, parts in files.items()]

@@ -12,6 +12,12 @@ simulated deuteranopia, protanopia and tritanopia (the Machado, Oliveira and
 Fernandes 2009 simulation). Every pair stays more than 20 CIELAB units apart in
 all four. Beyond eight crews colours repeat with a dash pattern added.
 
+Every piece of the user's text (crew ids, street and depot names, titles) is
+written with :class:`crewcut.reports.textsafety.XmlEscaper`: characters that XML
+1.0 cannot hold become U+FFFD, and the map then says so once in an XML comment.
+:func:`territory_map` and :func:`route_map` return the text with that count;
+:func:`territory_svg` and :func:`route_svg` the text alone.
+
 Route maps draw service in the crew's colour with an arrow per traversal, and
 deadhead (driving without serving) as a thin dashed dark grey line, each
 traversal shifted a little to the driving side so that the two directions of a
@@ -19,13 +25,13 @@ street stay apart.
 """
 from __future__ import annotations
 
-import html
 import math
 
 import numpy as np
 
 from crewcut.plans.model import CrewPlan, Plan
 from crewcut.plans.view import PlanView, view
+from crewcut.reports.textsafety import SafeText, XmlEscaper, xml_note
 
 PALETTE = ("#2255aa", "#ff7711", "#66bbff", "#884411", "#9900ff", "#ddaa77", "#774477", "#8877ff")
 DASHES = ("", "10 4", "3 3", "12 3 3 3")  # added to repeated colours beyond len(PALETTE) crews
@@ -123,14 +129,14 @@ def _arrow(x: float, y: float, ang: float, size: float, fill: str) -> str:
     return f'<polygon points="{xy}" fill="{fill}" stroke="#ffffff" stroke-width="0.7"/>'
 
 
-def _depot_marks(pv: PlanView, fr: _Frame, crews: list[CrewPlan] | tuple[CrewPlan, ...]) -> list[str]:
+def _depot_marks(pv: PlanView, fr: _Frame, crews: list[CrewPlan] | tuple[CrewPlan, ...], esc: XmlEscaper) -> list[str]:
     by_node: dict[int, list[str]] = {}
     for c in crews:
         by_node.setdefault(c.depot_node, []).append(c.id)
     out = []
     for node in sorted(by_node):
         x, y = fr.node_px[node]
-        label = html.escape(", ".join(by_node[node]))
+        label = esc.text(", ".join(by_node[node]))
         out.append(f'<rect x="{x - 7:.1f}" y="{y - 7:.1f}" width="14" height="14" fill="#ffffff" stroke="{INK}" '
                    f'stroke-width="2.5"/><circle cx="{x:.1f}" cy="{y:.1f}" r="2.5" fill="{INK}"/>')
         out.append(f'<text x="{x + 10:.1f}" y="{y + 18:.1f}" font-size="11" fill="{INK}" stroke="#ffffff" '
@@ -138,13 +144,15 @@ def _depot_marks(pv: PlanView, fr: _Frame, crews: list[CrewPlan] | tuple[CrewPla
     return out
 
 
-def _svg(width: int, height: int, body: list[str], title: str, standalone: bool) -> str:
+def _svg(width: int, height: int, body: list[str], title: str, standalone: bool, esc: XmlEscaper) -> SafeText:
     head = '<?xml version="1.0" encoding="UTF-8"?>\n' if standalone else ""
-    return (f'{head}<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" '
-            f'viewBox="0 0 {width} {height}" {FONT} role="img" aria-label="{html.escape(title)}">\n'
-            f'<rect x="0" y="0" width="{width}" height="{height}" fill="#ffffff"/>\n'
-            f'<text x="{MARGIN}" y="26" font-size="16" font-weight="bold" fill="{INK}">{html.escape(title)}</text>\n'
-            + "\n".join(body) + "\n</svg>\n")
+    label, shown = esc.attr(title), esc.text(title)
+    note = f"<!-- {xml_note(esc.replaced)} -->\n" if esc.replaced else ""
+    return SafeText(f'{head}<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" '
+                    f'viewBox="0 0 {width} {height}" {FONT} role="img" aria-label="{label}">\n{note}'
+                    f'<rect x="0" y="0" width="{width}" height="{height}" fill="#ffffff"/>\n'
+                    f'<text x="{MARGIN}" y="26" font-size="16" font-weight="bold" fill="{INK}">{shown}</text>\n'
+                    + "\n".join(body) + "\n</svg>\n", esc.replaced)
 
 
 def _scale_bar(fr: _Frame) -> str:
@@ -160,14 +168,20 @@ def _scale_bar(fr: _Frame) -> str:
             f'<text x="{WIDTH - MARGIN}" y="{fr.height - 12}" font-size="11" text-anchor="middle" fill="{INK}">N</text>')
 
 
-def _legend_row(y: float, swatch: str, text: str) -> str:
+def _legend_row(y: float, swatch: str, text: str, esc: XmlEscaper) -> str:
     return (f'<g transform="translate({WIDTH + 8},{y:.1f})">{swatch}'
-            f'<text x="34" y="10" font-size="12" fill="{INK}">{html.escape(text)}</text></g>')
+            f'<text x="34" y="10" font-size="12" fill="{INK}">{esc.text(text)}</text></g>')
 
 
 def territory_svg(pv: Plan | PlanView, standalone: bool = True) -> str:
     """All crews' territories in their colours, depots marked, a legend with crew ids and shift hours."""
+    return territory_map(pv, standalone).text
+
+
+def territory_map(pv: Plan | PlanView, standalone: bool = True) -> SafeText:
+    """:func:`territory_svg` with the count of characters XML 1.0 could not hold (``replaced``)."""
     pv = view(pv)
+    esc = XmlEscaper()
     fr = _Frame(pv)
     colours, dashes = crew_colours(pv), crew_dash(pv)
     owner: dict[int, str] = {}
@@ -180,10 +194,10 @@ def territory_svg(pv: Plan | PlanView, standalone: bool = True) -> str:
     for c in pv.crews:
         dash = f' stroke-dasharray="{dashes[c.id]}"' if dashes[c.id] else ""
         body.append(f'<g fill="none" stroke="{colours[c.id]}" stroke-width="4.5" stroke-linecap="round"'
-                    f'{dash} data-crew="{html.escape(c.id)}">')
+                    f'{dash} data-crew="{esc.attr(c.id)}">')
         body += [f'<path d="{_path(fr.seg(s))}"/>' for s in sorted(c.territory) if owner.get(s) == c.id]
         body.append("</g>")
-    body += _depot_marks(pv, fr, pv.crews)
+    body += _depot_marks(pv, fr, pv.crews, esc)
     body.append(_scale_bar(fr))
     from crewcut.reports.workload import workload_rows
     rows = {r["crew"]: r for r in workload_rows(pv) if r["row"] == "crew"}
@@ -196,19 +210,25 @@ def territory_svg(pv: Plan | PlanView, standalone: bool = True) -> str:
         sw = (f'<rect x="0" y="0" width="26" height="13" fill="{colours[c.id]}"/>' if not dash else
               f'<path d="M0,6.5 H26" stroke="{colours[c.id]}" stroke-width="6"{dash}/>')
         over = "  over limit" if r["over_limit_min"] > 0 else ""
-        body.append(_legend_row(y, sw, f'{c.id}: {r["shift_h"]:.2f} h{over}'))
+        body.append(_legend_row(y, sw, f'{c.id}: {r["shift_h"]:.2f} h{over}', esc))
         y += 20
     y += 6
-    body.append(_legend_row(y, f'<path d="M0,6.5 H26" stroke="{BACKGROUND}" stroke-width="2"/>', "no crew (not served)"))
+    body.append(_legend_row(y, f'<path d="M0,6.5 H26" stroke="{BACKGROUND}" stroke-width="2"/>', "no crew (not served)", esc))
     body.append(_legend_row(y + 20, f'<rect x="6" y="0" width="13" height="13" fill="#ffffff" stroke="{INK}" '
-                                    f'stroke-width="2.5"/>', "depot"))
+                                    f'stroke-width="2.5"/>', "depot", esc))
     height = max(fr.height, int(y) + 60)
-    return _svg(WIDTH + LEGEND_W, height, body, f"Territories - {len(pv.crews)} crews", standalone)
+    return _svg(WIDTH + LEGEND_W, height, body, f"Territories - {len(pv.crews)} crews", standalone, esc)
 
 
 def route_svg(pv: Plan | PlanView, crew: CrewPlan, standalone: bool = True) -> str:
     """One crew's routes: service in the crew colour with arrows, deadhead thin, dashed and grey."""
+    return route_map(pv, crew, standalone).text
+
+
+def route_map(pv: Plan | PlanView, crew: CrewPlan, standalone: bool = True) -> SafeText:
+    """:func:`route_svg` with the count of characters XML 1.0 could not hold (``replaced``)."""
     pv = view(pv)
+    esc = XmlEscaper()
     used = sorted({int(s) for s in crew.territory}
                   | {st.segment for r in crew.routes for st in r.traversals})
     fr = _Frame(pv, fit=used)  # zoomed to the crew's own streets
@@ -241,19 +261,19 @@ def route_svg(pv: Plan | PlanView, crew: CrewPlan, standalone: bool = True) -> s
     body += dead
     body.append("</g>")
     body += arrows
-    body += _depot_marks(pv, fr, [crew])
+    body += _depot_marks(pv, fr, [crew], esc)
     body.append(_scale_bar(fr))
     y = 44.0
     body.append(_legend_row(y, f'<path d="M0,6.5 H26" stroke="{colour}" stroke-width="3.6"/>',
-                            f"serve ({n_serve} traversals)"))
+                            f"serve ({n_serve} traversals)", esc))
     body.append(_legend_row(y + 20, f'<path d="M0,6.5 H26" stroke="{DEADHEAD}" stroke-width="1.6" '
-                                    f'stroke-dasharray="5 4"/>', f"drive, no service ({n_dead})"))
+                                    f'stroke-dasharray="5 4"/>', f"drive, no service ({n_dead})", esc))
     body.append(_legend_row(y + 40, f'<path d="M0,6.5 H26" stroke="{colour}" stroke-width="3.6"/>' + _arrow(13, 6.5, 0.0, 7.0, INK),
-                            "driving direction"))
+                            "driving direction", esc))
     body.append(_legend_row(y + 60, f'<path d="M0,6.5 H26" stroke="{BACKGROUND}" stroke-width="2"/>',
-                            "other streets"))
+                            "other streets", esc))
     body.append(_legend_row(y + 80, f'<rect x="6" y="0" width="13" height="13" fill="#ffffff" stroke="{INK}" '
-                                    f'stroke-width="2.5"/>', "depot (start and end)"))
+                                    f'stroke-width="2.5"/>', "depot (start and end)", esc))
     shift = sum(st.minutes + st.turn_minutes for r in crew.routes for st in r.traversals)
-    body.append(_legend_row(y + 108, "", f"shift {shift / 60:.2f} h"))
-    return _svg(WIDTH + LEGEND_W, max(fr.height, 240), body, f"Route - {crew.id}", standalone)
+    body.append(_legend_row(y + 108, "", f"shift {shift / 60:.2f} h", esc))
+    return _svg(WIDTH + LEGEND_W, max(fr.height, 240), body, f"Route - {crew.id}", standalone, esc)

@@ -11,6 +11,11 @@ turn delays, so that service h + driving h = shift h; deadhead %: deadhead
 distance over all distance driven; % of limit: shift over the crew's shift limit.
 The lower bound and gap come from the plan's ``summary`` (keys
 ``lower_bound_min`` and ``gap``) when the planner recorded them.
+
+Crew ids and depot names come from the user's data: in CSV they pass through
+:func:`crewcut.reports.textsafety.csv_cell` (OWASP, "CSV Injection"), in
+Markdown through :func:`crewcut.reports.textsafety.markdown_text` (no raw HTML,
+no markup, no line break).
 """
 from __future__ import annotations
 
@@ -20,6 +25,7 @@ import json
 
 from crewcut.plans.model import CrewPlan, Plan
 from crewcut.plans.view import PlanView, view
+from crewcut.reports.textsafety import csv_cell, markdown_text
 
 # (key, header with unit, justify) in display order.
 COLUMNS: tuple[tuple[str, str, str], ...] = (
@@ -159,20 +165,21 @@ def workload_text(plan: Plan | PlanView, form: str) -> str:
         return json.dumps(doc, ensure_ascii=False, indent=1, sort_keys=False) + "\n"
     cells = [[fmt(k, r[k]) for k, _h, _j in COLUMNS] for r in rows]
     headers = [h for _k, h, _j in COLUMNS]
+    text_cols = [i for i, (_k, _h, j) in enumerate(COLUMNS) if j == "left"]  # crew, depot: the user's text
     if form == "csv":
         buf = io.StringIO()
         w = csv.writer(buf, lineterminator="\n")
         w.writerow(headers)
-        w.writerows(cells)
+        # csv_cell: OWASP "CSV Injection"; numbers (formatted by fmt) are left as they are
+        w.writerows([csv_cell(x) if i in text_cols else x for i, x in enumerate(c)] for c in cells)
         return buf.getvalue()
     # Markdown: a pipe table, numbers right-aligned, then the summary lines
-    def esc(t: str) -> str:
-        return t.replace("|", "\\|")
+    esc = markdown_text
     out = ["| " + " | ".join(esc(h) for h in headers) + " |",
            "|" + "|".join(":---" if j == "left" else "---:" for _k, _h, j in COLUMNS) + "|"]
     for r, c in zip(rows, cells):
         c = [f"**{esc(x)}**" if r["row"] == "total" and x else esc(x) for x in c]
         out.append("| " + " | ".join(c) + " |")
     out.append("")
-    out.extend(f"- {line}" for line in summary_lines(pv))
+    out.extend(f"- {esc(line)}" for line in summary_lines(pv))
     return "\n".join(out) + "\n"

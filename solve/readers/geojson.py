@@ -148,6 +148,13 @@ def features_to_lines(doc, source: str) -> list[RawLine]:
             raise InputError(f"{source}: features[{i}]: 'properties' is not an object")
         fid = next((x for x in (props.get("id"), f.get("id")) if x is not None), i)
         fid = str(fid)
+        for key, text in (("id", fid), ("name", props.get("name")), ("class", props.get("class"))):
+            # RFC 8259 section 8.2: JSON lets a \uD800-\uDFFF escape stand alone, but it is no character
+            # and no UTF-8 output (the plan file, a report) could hold it
+            if isinstance(text, str) and any("\ud800" <= ch <= "\udfff" for ch in text):
+                raise InputError(f"{source}: features[{i}]: '{key}' holds an unpaired surrogate escape "
+                                 "(\\uD800-\\uDFFF without its pair), which is not a character",
+                                 "write the character itself, or its full surrogate pair")
         where = f"{source}: feature '{fid}'"
         geom = f.get("geometry")
         gtype = geom.get("type") if isinstance(geom, dict) else None

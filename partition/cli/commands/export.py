@@ -2,8 +2,8 @@
 from __future__ import annotations
 
 
-from crewcut.reports.exports import FORMATS, export
-from crewcut.cli.commands.common import out_file, plan_inputs, write_or_print
+from crewcut.reports.exports import FORMATS, export_document
+from crewcut.cli.commands.common import out_file, plan_inputs, styled, write_or_print
 from crewcut.plans.view import load
 
 NAME = "export"
@@ -19,5 +19,7 @@ def add_arguments(p) -> None:
 def run(args, ui) -> int:
     pv = load(args.plan)
     out = out_file(args.out, plan_inputs(args.plan, pv))
-    text = export(pv, args.format)
-    return write_or_print(ui, out, text)
+    doc = export_document(pv, args.format)
+    if doc.note:  # characters of names or ids that XML cannot hold were replaced
+        ui.err.print(styled(f"note: {doc.note}", "yellow"))
+    return write_or_print(ui, out, doc.text)

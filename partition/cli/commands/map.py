@@ -2,9 +2,9 @@
 from __future__ import annotations
 
 
-from crewcut.cli.commands.common import out_file, plan_inputs, write_or_print
+from crewcut.cli.commands.common import out_file, plan_inputs, styled, write_or_print
 from crewcut.plans.view import load
-from crewcut.reports.svgmap import route_svg, territory_svg
+from crewcut.reports.svgmap import route_map, territory_map
 
 NAME = "map"
 HELP = "draw an SVG map: every crew's territory, or with --crew one crew's route with driving arrows"
@@ -19,5 +19,7 @@ def add_arguments(p) -> None:
 def run(args, ui) -> int:
     pv = load(args.plan)
     out = out_file(args.out, plan_inputs(args.plan, pv))
-    svg = route_svg(pv, pv.select([args.crew])[0]) if args.crew else territory_svg(pv)
-    return write_or_print(ui, out, svg)
+    svg = route_map(pv, pv.select([args.crew])[0]) if args.crew else territory_map(pv)
+    if svg.note:  # characters of names or ids that XML cannot hold were replaced
+        ui.err.print(styled(f"note: {svg.note}", "yellow"))
+    return write_or_print(ui, out, svg.text)
