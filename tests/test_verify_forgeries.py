@@ -283,3 +283,32 @@ def test_11_lower_bound_set_to_the_longest_route(genuine):
     v = first(d, net)
     assert v.kind == "lower bound" and "exceeds the lower bound recomputed" in v.message
     assert f"{doc['summary']['lower_bound_min']:.4f}" in v.message  # the figure the planner recorded honestly
+
+
+def test_a_defer_list_against_the_policy(genuine):
+    # A forged history (verify cannot tell it from a true one, see the README) makes the defer list
+    # admissible; the policy itself still holds: the replanner defers the lowest priority first
+    # (crewcut.fleet.replan, step 8), so a crew may not defer a street of priority 3 while it still
+    # serves one of priority 1 (the config's [priority] table: primary/secondary 3, residential 1).
+    doc, net, config, _ = genuine
+    d = copy.deepcopy(doc)
+    segs = d["network"]["segments"]
+    prio = {s: config.priority_for(rec["class"]) for s, rec in enumerate(segs)}
+    crew = next(c for c in d["crews"] if {prio[s] for s in c["territory"]} >= {1, 3})
+    p = next(s for s in crew["territory"] if prio[s] == 3)
+    crew["territory"].remove(p)
+    for t in crew["routes"][0]["traversals"]:
+        if t["segment"] == p and t["mode"] == "service":
+            t["mode"], t["minutes"] = "deadhead", segs[p]["deadhead_min"]
+    d["deferred"] = [{"segment": p, "source_id": segs[p]["source_id"], "name": segs[p]["name"],
+                      "class": segs[p]["class"], "priority": 3, "crew": crew["id"],
+                      "work_min": segs[p]["service_min"], "length_m": segs[p]["length_m"]}]
+    d["history"] = {"parent": "0" * 64, "parent_path": None, "parent_fingerprint": d["network"]["fingerprint"],
+                    "generation": 1, "lineage": ["0" * 64],
+                    "changes": [{"kind": "shift_limit", "crew": crew["id"], "from_min": 480.0, "to_min": 480.0}],
+                    "stability": 1.0, "overflow": "defer"}
+    retotal(d)
+    d["summary"].update(deferred_segments=1, deferred_min=segs[p]["service_min"])
+    v = first(d, net, config)
+    assert v.kind == "deferred" and f"deferred segment {p} (priority 3)" in v.message
+    assert "the lowest priority waits first" in v.message
