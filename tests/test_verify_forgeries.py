@@ -312,3 +312,19 @@ def test_a_defer_list_against_the_policy(genuine):
     v = first(d, net, config)
     assert v.kind == "deferred" and f"deferred segment {p} (priority 3)" in v.message
     assert "the lowest priority waits first" in v.message
+
+
+def test_a_one_crew_plan_with_its_bound_raised_to_its_total(genuine, tmp_path):
+    # one crew serving the whole town (crewcut route): the genuine plan passes against the config; its
+    # bound, recomputed (the fleet bound for one crew, then the route engine's own proof), is not below
+    # the recorded one; set to the route's total (a claimed gap of 0 %), it is refused
+    _, net, config, folder = genuine
+    town, cfg = folder / "tallowmere.geojson", folder / "tallowmere.toml"
+    assert main(["route", str(town), "--config", str(cfg), "--out", str(tmp_path / "r")]) == 0
+    doc = json.loads((tmp_path / "r" / "plan.json").read_text())
+    assert verify_plan(plan_from_dict(doc), net, config).valid
+    d = copy.deepcopy(doc)
+    d["summary"]["lower_bound_min"] = d["summary"]["total_min"]
+    d["summary"]["gap"] = 0.0
+    v = first(d, net, config)
+    assert v.kind == "lower bound" and f"{doc['summary']['lower_bound_min']:.4f}" in v.message

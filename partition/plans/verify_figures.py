@@ -29,6 +29,12 @@ _TOL_FIG = 0.01  # summary figures are sums over many rounded totals
 
 
 def check_figures(plan: Plan, net: Network, profile: Profile):
+    """Yield the summary's violations (module notes); nothing when the plan records no summary.
+
+    Parameters
+    ----------
+    plan, net, profile : the plan, the network and the profile verify checks against.
+    """
     summ = plan.summary
     if summ is None:
         return

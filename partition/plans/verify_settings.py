@@ -39,6 +39,13 @@ def profile_differences(plan: Plan, truth: Profile) -> list[tuple[str, object, o
 
 
 def check_profile(plan: Plan, truth: Profile):
+    """Yield one violation naming every recorded setting that differs from ``truth`` (none when equal).
+
+    Parameters
+    ----------
+    plan : the plan as read from its file.
+    truth : the profile verify checks against (the config's, or the plan's own).
+    """
     diffs = profile_differences(plan, truth)
     if diffs:
         shown = "; ".join(f"{k}: plan {_show(a)}, config {_show(b)}" for k, a, b in diffs)
@@ -55,6 +62,14 @@ def _show(v) -> str:
 
 
 def check_crews(plan: Plan, net: Network, truth: Profile, from_config: bool):
+    """Yield the crews' violations: shift limits, depots, the run options' record, the config's crews.
+
+    Parameters
+    ----------
+    plan, net : the plan and the network read from the network file.
+    truth : the profile verify checks against.
+    from_config : ``truth`` came from a config, so its crews (if any) are the truth too.
+    """
     if not plan.crews:
         yield Violation("crews", "the plan has no crew", "crew")
         return
