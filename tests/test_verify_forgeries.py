@@ -130,7 +130,8 @@ def test_1_everything_deferred_in_a_plan_never_rebalanced(genuine):
     segs = d["network"]["segments"]
     d["deferred"] = [{"segment": s, "source_id": segs[s]["source_id"], "name": segs[s]["name"],
                       "class": segs[s]["class"], "priority": config.priority_for(segs[s]["class"]),
-                      "crew": c["id"], "work_min": segs[s]["service_min"], "length_m": segs[s]["length_m"]}
+                      "crew": c["id"], "work_min": segs[s]["service_min"] * sum(segs[s]["passes"].values()),
+                      "length_m": segs[s]["length_m"]}
                      for c in d["crews"] for s in c["territory"]]
     for c in d["crews"]:
         c["territory"] = []
@@ -302,13 +303,14 @@ def test_a_defer_list_against_the_policy(genuine):
             t["mode"], t["minutes"] = "deadhead", segs[p]["deadhead_min"]
     d["deferred"] = [{"segment": p, "source_id": segs[p]["source_id"], "name": segs[p]["name"],
                       "class": segs[p]["class"], "priority": 3, "crew": crew["id"],
-                      "work_min": segs[p]["service_min"], "length_m": segs[p]["length_m"]}]
+                      "work_min": segs[p]["service_min"] * sum(segs[p]["passes"].values()),
+                      "length_m": segs[p]["length_m"]}]
     d["history"] = {"parent": "0" * 64, "parent_path": None, "parent_fingerprint": d["network"]["fingerprint"],
                     "generation": 1, "lineage": ["0" * 64],
                     "changes": [{"kind": "shift_limit", "crew": crew["id"], "from_min": 480.0, "to_min": 480.0}],
                     "stability": 1.0, "overflow": "defer"}
     retotal(d)
-    d["summary"].update(deferred_segments=1, deferred_min=segs[p]["service_min"])
+    d["summary"].update(deferred_segments=1, deferred_min=d["deferred"][0]["work_min"])
     v = first(d, net, config)
     assert v.kind == "deferred" and f"deferred segment {p} (priority 3)" in v.message
     assert "the lowest priority waits first" in v.message
@@ -328,3 +330,28 @@ def test_a_one_crew_plan_with_its_bound_raised_to_its_total(genuine, tmp_path):
     d["summary"]["gap"] = 0.0
     v = first(d, net, config)
     assert v.kind == "lower bound" and f"{doc['summary']['lower_bound_min']:.4f}" in v.message
+
+
+@pytest.mark.parametrize("edit, where", [
+    (lambda d: d["summary"].__setitem__("gap", "none"), "summary: gap is 'none', not a number"),
+    (lambda d: d["crews"][0]["routes"][0].__setitem__("lower_bound_min", None), "lower_bound_min None is not"),
+    (lambda d: d.update(deferred=[], history={"parent": None, "generation": "two", "changes": []}),
+     "generation 'two' is not a whole number"),
+    (lambda d: d["settings"]["crews"][0].__setitem__("shift_limit_min", "long"), "run options' record"),
+])
+def test_values_the_reader_lets_through_are_named_not_crashes(genuine, edit, where):
+    # the project's bad-input rule: a clear message naming the record, never another exception
+    doc, net, config, _ = genuine
+    d = copy.deepcopy(doc)
+    edit(d)
+    assert where in str(first(d, net, config))
+
+
+def test_a_recorded_profile_that_no_config_could_hold_is_refused_when_read(genuine):
+    from crewcut.solve.errors import InputError
+
+    doc = copy.deepcopy(genuine[0])
+    doc["settings"]["profile"]["service_speed_kmh"] = "fast"
+    with pytest.raises(InputError, match="the recorded profile is not a valid work profile: settings: "
+                                         "'service_speed_kmh' must be a table"):
+        plan_from_dict(doc, "plan.json")

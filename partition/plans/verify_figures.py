@@ -16,6 +16,8 @@
 """
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 
 from crewcut.solve.errors import InputError
@@ -26,6 +28,13 @@ from crewcut.plans.model import FleetSummary, Plan, RouteSummary
 from crewcut.plans.violation import TOL_MIN, Violation
 
 _TOL_FIG = 0.01  # summary figures are sums over many rounded totals
+_NUMBERS = {"crews", "longest_min", "mean_min", "shortest_min", "longest_over_mean", "lower_bound_min", "gap",
+            "total_shift_min", "service_min", "deadhead_min", "deadhead_pct", "deferred_segments", "deferred_min",
+            "total_min", "u_turns", "across_turns"}
+
+
+def _number(x) -> bool:
+    return isinstance(x, (int, float)) and not isinstance(x, bool) and bool(np.isfinite(x))
 
 
 def check_figures(plan: Plan, net: Network, profile: Profile):
@@ -38,6 +47,16 @@ def check_figures(plan: Plan, net: Network, profile: Profile):
     summ = plan.summary
     if summ is None:
         return
+    for f in dataclasses.fields(summ):
+        v = getattr(summ, f.name)
+        if f.name in _NUMBERS and not _number(v) and not (v is None and f.name.startswith("deferred")):
+            yield Violation("summary", f"{f.name} is {v!r}, not a number", "summary")
+            return
+    for o in getattr(summ, "over_limit", ()):
+        if not all(_number(getattr(o, k)) for k in ("shift_min", "limit_min", "over_min")):
+            yield Violation("summary.over_limit", f"the entry of crew {o.crew!r} holds a value that is not a number",
+                            "over limit")
+            return
     if isinstance(summ, FleetSummary):
         yield from _fleet(plan, summ)
     elif isinstance(summ, RouteSummary):

@@ -180,6 +180,10 @@ def _route(plan: Plan, net: Network, profile: Profile, model: TurnModel, ci: int
         if getattr(tot, key) != got:
             yield Violation(where, f"totals.{key} is {getattr(tot, key)} but its traversals make {got}", "totals")
             return
-    if float(route.lower_bound_min) > float(tot.total_min) + total_tol(n, TOL_MIN):
+    lb = route.lower_bound_min
+    if isinstance(lb, bool) or not isinstance(lb, (int, float)) or not np.isfinite(lb) or lb < 0:
+        yield Violation(where, f"lower_bound_min {lb!r} is not a number of minutes 0 or more", "lower bound")
+        return
+    if float(lb) > float(tot.total_min) + total_tol(n, TOL_MIN):
         yield Violation(where, f"lower_bound_min {route.lower_bound_min} exceeds the route's own total "
                         f"{tot.total_min}", "lower bound")

@@ -12,7 +12,7 @@
 * Defer list: only in a replanned plan (``history.generation`` 1 or more, changes
   recorded, ``overflow`` "defer"); each entry a distinct segment that needs
   service, of a crew of the plan, with the priority the profile gives its road
-  class, and the policy of :mod:`crewcut.fleet.replan` (lowest priority waits
+  class and the work its passes take at the profile's service speed, and the policy of :mod:`crewcut.fleet.replan` (lowest priority waits
   first): no deferred street has a higher priority than any street its crew
   still serves.
 """
@@ -22,6 +22,7 @@ import math
 
 import numpy as np
 
+from crewcut.solve.costs import required_passes, service_minutes
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.depot import check_depot_node, snap_depot
 from crewcut.solve.network.model import Network
@@ -51,6 +52,10 @@ def check_profile(plan: Plan, truth: Profile):
         shown = "; ".join(f"{k}: plan {_show(a)}, config {_show(b)}" for k, a, b in diffs)
         yield Violation("settings.profile", f"the plan's recorded profile differs from the config in "
                         f"{len(diffs)} setting(s): {shown}", "profile")
+
+
+def _number(x) -> bool:
+    return isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x)
 
 
 def _show(v) -> str:
@@ -87,7 +92,8 @@ def check_crews(plan: Plan, net: Network, truth: Profile, from_config: bool):
         opts = {o.id: o for o in recorded}
         for c in plan.crews:
             o = opts.get(c.id)
-            if o is None or o.depot_node != c.depot_node or abs(float(o.shift_limit_min) - c.shift_limit_min) > 1e-3:
+            if (o is None or o.depot_node != c.depot_node or not _number(o.shift_limit_min)
+                    or abs(float(o.shift_limit_min) - c.shift_limit_min) > 1e-3):
                 yield Violation(f"crew '{c.id}'", "its depot or shift limit differs from the run options' record "
                                 "of the crews (settings.crews)", "depot")
                 return
@@ -116,9 +122,14 @@ def _against_config(plan: Plan, net: Network, truth: Profile):
             yield Violation(f"crew '{c.id}'", f"depot node {c.depot_node} in the plan, node {node} from the config",
                             "depot")
             return
-        if (h.generation or 0) >= 2:
+        if h.generation is not None and not (isinstance(h.generation, int) and h.generation < 2):
             continue  # an earlier replan's new limits are not recorded in this file
-        want = float(new_limits.get(c.id, cc.shift_limit_min))
+        want = new_limits.get(c.id, cc.shift_limit_min)
+        if not _number(want):
+            yield Violation("history", f"the recorded new shift limit of crew '{c.id}' is {want!r}, not a number",
+                            "shift limit")
+            return
+        want = float(want)
         if abs(c.shift_limit_min - want) > 1e-3:
             yield Violation(f"crew '{c.id}'", f"shift limit {c.shift_limit_min:g} minutes in the plan, {want:g} "
                             f"{'in the recorded change' if c.id in new_limits else 'in the config'}", "shift limit")
@@ -130,6 +141,9 @@ def check_deferred(plan: Plan, net: Network, profile: Profile, need: np.ndarray)
     if plan.deferred is None:
         return
     h = plan.history
+    if h.generation is not None and (isinstance(h.generation, bool) or not isinstance(h.generation, int)):
+        yield Violation("history", f"generation {h.generation!r} is not a whole number", "deferred")
+        return
     if not plan.deferred and h.generation is None:
         yield Violation("deferred", "the plan has a defer list but was never replanned", "deferred")
         return
@@ -139,6 +153,7 @@ def check_deferred(plan: Plan, net: Network, profile: Profile, need: np.ndarray)
                         f"{h.generation}, {len(h.changes)} change(s), overflow {h.overflow!r})", "deferred")
         return
     crews = {c.id: c for c in plan.crews}
+    work = service_minutes(net, profile) * required_passes(net, profile).total
     seen: set[int] = set()
     for d in plan.deferred:
         s = d.segment
@@ -150,7 +165,7 @@ def check_deferred(plan: Plan, net: Network, profile: Profile, need: np.ndarray)
             yield Violation("deferred", f"segment {s} is deferred twice", "deferred")
             return
         seen.add(s)
-        if d.crew not in crews:
+        if not isinstance(d.crew, str) or d.crew not in crews:
             yield Violation("deferred", f"segment {s} is deferred by crew '{d.crew}', which is not in the plan",
                             "deferred")
             return
@@ -159,6 +174,10 @@ def check_deferred(plan: Plan, net: Network, profile: Profile, need: np.ndarray)
             yield Violation("deferred", f"segment {s} is deferred with priority {d.priority} and feature id "
                             f"{d.source_id!r}; the network and profile give {want} and {net.seg_source[s]!r}",
                             "deferred")
+            return
+        if not (_number(d.work_min) and abs(float(d.work_min) - float(work[s])) <= 1e-3 + 1e-6 * float(work[s])):
+            yield Violation("deferred", f"segment {s} is deferred with work_min {d.work_min!r}; its passes at the "
+                            f"profile's service speed take {float(work[s]):.4f} minutes", "deferred")
             return
     for cid, crew in crews.items():
         mine = [d for d in plan.deferred if d.crew == cid]
