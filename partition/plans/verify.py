@@ -44,8 +44,8 @@ from crewcut.plans.verify_routes import check_routes
 from crewcut.plans.verify_settings import check_crews, check_deferred, check_profile, profile_differences
 from crewcut.plans.violation import Violation
 
-__all__ = ["Overview", "Verdict", "Violation", "check_plan", "plan_overview", "profile_differences",
-           "profile_of_plan", "verify_plan"]
+__all__ = ["PROFILE_FROM_CONFIG", "PROFILE_FROM_PLAN", "Overview", "Verdict", "Violation", "check_plan",
+           "plan_overview", "profile_differences", "profile_of_plan", "verify_plan"]
 
 PROFILE_FROM_CONFIG = "config"
 PROFILE_FROM_PLAN = "plan"
