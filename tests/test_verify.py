@@ -168,7 +168,12 @@ def test_plan_made_with_other_speeds(valid):
     # must not pass against this one (minutes = length / speed, common practice).
     plan, net, profile = valid
     slower = Profile(service_speed_kmh={"default": 5.0}, deadhead_speed_kmh={"default": 25.0})
-    assert "service_min" in _first(plan, net, slower)
+    # against the config's profile, the recorded setting itself is the first difference named
+    assert "service_speed_kmh: plan {default: 6}, config {default: 5}" in _first(plan, net, slower)
+    # a plan whose recorded profile says 5 km/h but whose minutes were timed at 6 km/h
+    p = copy.deepcopy(plan)
+    p["settings"]["profile"]["service_speed_kmh"] = {"default": 5.0}
+    assert "service_min" in _first(p, net, slower)
 
 
 @pytest.mark.parametrize("edit", ["drop_minutes", "crew_not_object", "null_total", "bool_segment"])

@@ -17,7 +17,7 @@ import math
 import numpy as np
 
 from crewcut.solve.errors import InputError
-from crewcut.solve.profile import Crew, Profile, crew_id_problem
+from crewcut.solve.profile import Crew, Profile, crew_id_problem, profile_from_dict
 from crewcut.solve.result import Route, RouteTotals, Traversal
 
 from crewcut.plans.schema import schema_problem
@@ -276,12 +276,30 @@ def _geometry_problem(net: dict) -> str | None:
     return None
 
 
+# Where each recorded profile setting lives in a config file (crewcut.solve.profile.profile_from_dict).
+_PROFILE_TABLES = {"turn_penalty_s": None, "service_speed_kmh": None, "deadhead_speed_kmh": None,
+                   "default_service": None, "priority": None, "snap_tolerance_m": "network", "split_at_touch": "network"}
+
+
 def _settings_problem(settings) -> str | None:
     if not isinstance(settings, dict) or not isinstance(settings.get("profile", {}), dict):
         return "the settings section has no profile record"
-    traffic = settings.get("profile", {}).get("traffic", "right")
+    prof = settings.get("profile", {})
+    traffic = prof.get("traffic", "right")
     if traffic not in ("right", "left"):
         return f"settings.profile.traffic is {traffic!r} (it must be \"right\" or \"left\")"
+    # the recorded profile obeys the rules of a config file (types, ranges, known keys)
+    data: dict = {}
+    for key, value in prof.items():
+        table = _PROFILE_TABLES.get(key, "profile")
+        if table is None:
+            data[key] = value
+        else:
+            data.setdefault(table, {})[key] = value
+    try:
+        profile_from_dict(data, "settings")
+    except InputError as exc:
+        return f"the recorded profile is not a valid work profile: {exc.message}"
     return None
 
 

@@ -1,18 +1,20 @@
-"""``crewcut verify PLAN NETWORK``: check a plan against its street network, independently of the planner."""
+"""``crewcut verify PLAN NETWORK``: check a plan against its street network (and config), independently of the planner."""
 from __future__ import annotations
 
 import argparse
 
 NAME = "verify"
-HELP = "check every invariant of a plan file against the street network (exit 2 at the first violation)"
+HELP = ("check every invariant of a plan file against the street network and the config "
+        "(exit 2 at the first violation)")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("plan", metavar="PLAN", help="plan.json written by 'crewcut plan'")
     parser.add_argument("network", metavar="NETWORK", help="the street network the plan was made on")
     parser.add_argument("--config", metavar="FILE",
-                        help="the work profile used for planning, when it read the network differently from "
-                             "the settings recorded in the plan (e.g. its OpenStreetMap road classes)")
+                        help="the work profile the plan must have been made with: its settings, crews' depots "
+                             "and shift limits are the truth (without it, the plan's own recorded settings are "
+                             "taken on trust)")
 
 
 def run(args, ui) -> int:
@@ -21,17 +23,21 @@ def run(args, ui) -> int:
     from crewcut.solve.readers import read_network
 
     from crewcut.plans.planfile import read_plan
-    from crewcut.plans.verify import check_plan, plan_overview, profile_of_plan
+    from crewcut.plans.verify import PROFILE_FROM_CONFIG, plan_overview, profile_of_plan, verify_plan
 
     plan = read_plan(args.plan)
-    profile = profile_of_plan(plan, load_profile(args.config) if args.config else None)
-    net = read_network(args.network, profile)
-    found = check_plan(plan, net, profile, first_only=True)
-    if found:
-        raise InputError(f"{args.plan} is not a valid plan for {args.network}: {found[0]}",
-                         "re-plan with 'crewcut plan', or give the network the plan was made on")
+    config = load_profile(args.config) if args.config else None
+    net = read_network(args.network, config if config is not None else profile_of_plan(plan))
+    verdict = verify_plan(plan, net, config, first_only=True)
+    if verdict.profile_from == PROFILE_FROM_CONFIG:
+        against = f"checked against {args.config}"
+    else:
+        against = "checked against the plan's own recorded settings (give --config to check those too)"
+    if verdict.violations:
+        raise InputError(f"{args.plan} is not a valid plan for {args.network} ({against}): {verdict.violations[0]}",
+                         "re-plan with 'crewcut plan', or give the network and config the plan was made with")
     o = plan_overview(plan)
     ui.out.print(f"valid: {o.crews} crews, {o.segments:,} segments in territories, {o.traversals:,} "
                  f"traversals; every required pass served exactly once; closed walks from the depots; "
-                 f"longest shift {o.longest_min / 60:.2f} h")
+                 f"longest shift {o.longest_min / 60:.2f} h; {against}")
     return 0
