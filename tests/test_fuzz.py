@@ -35,7 +35,7 @@ from hypothesis import strategies as st
 from crewcut.cli.main import main
 
 # No shrinking phase: a failure is reported as generated, so a red run stays inside the suite's time budget.
-FUZZ = settings(max_examples=25, deadline=None, derandomize=True, database=None,
+FUZZ = settings(max_examples=40, deadline=None, derandomize=True, database=None,
                 phases=[Phase.explicit, Phase.reuse, Phase.generate],
                 suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
 
@@ -179,7 +179,7 @@ class _HTMLCheck(html.parser.HTMLParser):
 
 
 def _safe_csv(text: str) -> None:
-    for row in csv.reader(io.StringIO(text)):
+    for row in csv.reader(io.StringIO(text, newline="")):
         for cell in row:
             if cell and cell[0] in "=+-@\t\r":
                 try:

@@ -29,7 +29,7 @@ def _same(a: Path, b: Path) -> bool:
         if a.resolve() == b.resolve():
             return True
         return a.exists() and b.exists() and os.path.samefile(a, b)
-    except OSError:
+    except (OSError, ValueError):  # ValueError: a recorded name holding a NUL cannot name a file
         return False
 
 
