@@ -95,7 +95,7 @@ def build_plan(net: Network, profile: Profile, crews: list[CrewPlan], *, source:
         doc["deferred"] = [{"segment": d.segment, "source_id": d.source_id, "name": d.name, "class": d.road_class,
                             "priority": d.priority, "crew": d.crew, "work_min": d.work_min, "length_m": d.length_m}
                            for d in deferred]
-    return plan_from_dict(json.loads(json.dumps(doc)))
+    return plan_from_dict(json.loads(json.dumps(doc)), trusted=True)
 
 
 def plan_to_json(plan: Plan) -> str:
