@@ -136,14 +136,17 @@ def write_plan(plan: Plan, path: str | Path) -> Path:
     return _write(plan, path)
 
 
-def verify(plan: Plan, network: Network, profile: Profile | None = None) -> list:
+def verify(plan: Plan, network: Network, config: Profile | None = None) -> list:
     """Every violation of the plan's invariants, checked independently of the planner (empty: valid).
 
-    ``profile`` defaults to the one recorded in the plan. See :mod:`crewcut.plans.verify`.
+    ``network`` and ``config`` (the work profile with its crews, when given) are the
+    truth: the plan's recorded profile, geometry, names, minutes, turns, depots, limits,
+    summary and lower bound are compared with them or re-derived. Without ``config`` the
+    plan's own recorded settings are used. See :func:`crewcut.plans.verify.verify_plan`.
     """
-    from crewcut.plans.verify import check_plan, profile_of_plan
+    from crewcut.plans.verify import verify_plan
 
-    return check_plan(plan, network, profile or profile_of_plan(plan), first_only=False)
+    return list(verify_plan(plan, network, config, first_only=False).violations)
 
 
 def table(plan: Plan, fmt: str = "csv") -> str:
