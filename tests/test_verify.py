@@ -18,30 +18,13 @@ from crewcut.plans.planfile import plan_from_dict, plan_to_dict
 from crewcut.plans.verify import check_plan
 from crewcut.solve.errors import InputError
 from helpers.nets import named_grid
-from helpers.plans import make_plan
+from helpers.plans import make_plan, retotal
 from crewcut.solve.profile import Profile
 
 
 def _profile():
     # the profile helpers.plans.make_plan uses
     return Profile(service_speed_kmh={"default": 6.0}, deadhead_speed_kmh={"default": 25.0})
-
-
-def _retotal(plan: dict) -> None:
-    """Recompute route totals and shifts from the traversals (so only the intended break remains)."""
-    for crew in plan["crews"]:
-        shift = 0.0
-        for r in crew["routes"]:
-            t = r["totals"]
-            trs = r["traversals"]
-            t["service_km"] = sum(x["metres"] for x in trs if x["mode"] == "service") / 1000
-            t["deadhead_km"] = sum(x["metres"] for x in trs if x["mode"] == "deadhead") / 1000
-            t["service_min"] = sum(x["minutes"] for x in trs if x["mode"] == "service")
-            t["deadhead_min"] = sum(x["minutes"] for x in trs if x["mode"] == "deadhead")
-            t["turn_min"] = sum(x["turn_minutes"] for x in trs)
-            t["total_min"] = t["service_min"] + t["deadhead_min"] + t["turn_min"]
-            shift += t["total_min"]
-        crew["shift_min"] = shift
 
 
 @pytest.fixture(scope="module")
@@ -110,7 +93,7 @@ def test_pass_not_served(valid):
     t = next(t for t in p["crews"][2]["routes"][0]["traversals"] if t["mode"] == "service")
     t["mode"] = "deadhead"
     t["minutes"] = segs[t["segment"]]["deadhead_min"]
-    _retotal(p)
+    retotal(p, summary=False)
     assert f"segment {t['segment']}" in _first(p, net, profile)
     assert "exactly once" in _first(p, net, profile)
 
@@ -124,7 +107,7 @@ def test_pass_served_twice(valid):
     t = next(t for t in crew["routes"][0]["traversals"] if t["mode"] == "deadhead" and t["segment"] in terr)
     t["mode"] = "service"
     t["minutes"] = segs[t["segment"]]["service_min"]
-    _retotal(p)
+    retotal(p, summary=False)
     assert "exactly once" in _first(p, net, profile)
 
 

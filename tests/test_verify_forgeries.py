@@ -30,6 +30,7 @@ from crewcut.solve.costs import required_passes, service_minutes
 from crewcut.solve.profile import load_profile
 from crewcut.solve.readers import read_network
 from crewcut.solve.result import TURNS
+from helpers.plans import retotal
 
 
 @pytest.fixture(scope="module")
@@ -45,34 +46,6 @@ def genuine(tmp_path_factory):
 
 
 # ----------------------------------------------------------------------------- the forger's tools
-def retotal(doc: dict) -> None:
-    """Route totals, shifts and the summary's figures recomputed from the traversals (the recorded bound kept)."""
-    shifts, serv, dead, skm, dkm = [], 0.0, 0.0, 0.0, 0.0
-    for crew in doc["crews"]:
-        shift = 0.0
-        for r in crew["routes"]:
-            t, trs = r["totals"], r["traversals"]
-            t["service_km"] = sum(x["metres"] for x in trs if x["mode"] == "service") / 1000
-            t["deadhead_km"] = sum(x["metres"] for x in trs if x["mode"] == "deadhead") / 1000
-            t["service_min"] = sum(x["minutes"] for x in trs if x["mode"] == "service")
-            t["deadhead_min"] = sum(x["minutes"] for x in trs if x["mode"] == "deadhead")
-            t["turn_min"] = sum(x["turn_minutes"] for x in trs)
-            t["total_min"] = t["service_min"] + t["deadhead_min"] + t["turn_min"]
-            t["u_turns"] = sum(x["turn"] == "u_turn" for x in trs)
-            t["across_turns"] = sum(x["turn"] == "across_traffic" for x in trs)
-            shift += t["total_min"]
-            serv, dead = serv + t["service_min"], dead + t["deadhead_min"]
-            skm, dkm = skm + t["service_km"], dkm + t["deadhead_km"]
-        crew["shift_min"] = shift
-        shifts.append(shift)
-    s = doc["summary"]
-    s.update(longest_min=max(shifts), mean_min=sum(shifts) / len(shifts), shortest_min=min(shifts),
-             total_shift_min=sum(shifts), service_min=serv, deadhead_min=dead,
-             deadhead_pct=100.0 * dkm / (dkm + skm) if dkm + skm else 0.0)
-    s["longest_over_mean"] = s["longest_min"] / s["mean_min"] if s["mean_min"] > 0 else 1.0
-    s["gap"] = s["longest_min"] / s["lower_bound_min"] - 1.0 if s["lower_bound_min"] > 0 else 0.0
-
-
 def relabel_turns(doc: dict, net, profile) -> None:
     """Every turn labelled and charged again with the engine's turn model (what a careful forger would do)."""
     model = TurnModel.from_network(net, profile)

@@ -106,15 +106,10 @@ def main(argv: list[str] | None = None) -> int:
 
 
 def _run(args, ui) -> int:
+    from crewcut.cli.commands.common import print_text
+
     code = args._run(args, ui)
-    try:
-        sys.stdout.flush()  # a full device or a closed pipe shows up here, inside the guard, not at exit
-    except BrokenPipeError:
-        raise
-    except OSError as exc:
-        if exc.filename is None:
-            exc.filename = "standard output"
-        raise
+    print_text()  # flushed here: a full device or a closed pipe shows up inside the guard, not at exit
     return code
 
 

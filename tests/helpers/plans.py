@@ -114,3 +114,37 @@ def make_plan(k: int = 3, cols: int = 6, rows: int = 4, traffic: str = "right") 
     lb = service_total / k
     summary = fleet_summary(crews, lb, method="test: networkx Euler circuits per column band")
     return build_plan(net, profile, crews, source="tallowmere-grid (tests)", summary=summary)
+
+
+def retotal(doc: dict, summary: bool = True) -> None:
+    """Route totals and shifts (and, with ``summary``, the summary's figures) recomputed from the traversals.
+
+    The recorded lower bound is kept. Used to make a forged or broken plan document consistent again, so
+    that only the intended break remains.
+    """
+    shifts, serv, dead, skm, dkm = [], 0.0, 0.0, 0.0, 0.0
+    for crew in doc["crews"]:
+        shift = 0.0
+        for r in crew["routes"]:
+            t, trs = r["totals"], r["traversals"]
+            t["service_km"] = sum(x["metres"] for x in trs if x["mode"] == "service") / 1000
+            t["deadhead_km"] = sum(x["metres"] for x in trs if x["mode"] == "deadhead") / 1000
+            t["service_min"] = sum(x["minutes"] for x in trs if x["mode"] == "service")
+            t["deadhead_min"] = sum(x["minutes"] for x in trs if x["mode"] == "deadhead")
+            t["turn_min"] = sum(x["turn_minutes"] for x in trs)
+            t["total_min"] = t["service_min"] + t["deadhead_min"] + t["turn_min"]
+            t["u_turns"] = sum(x["turn"] == "u_turn" for x in trs)
+            t["across_turns"] = sum(x["turn"] == "across_traffic" for x in trs)
+            shift += t["total_min"]
+            serv, dead = serv + t["service_min"], dead + t["deadhead_min"]
+            skm, dkm = skm + t["service_km"], dkm + t["deadhead_km"]
+        crew["shift_min"] = shift
+        shifts.append(shift)
+    if not summary:
+        return
+    s = doc["summary"]
+    s.update(longest_min=max(shifts), mean_min=sum(shifts) / len(shifts), shortest_min=min(shifts),
+             total_shift_min=sum(shifts), service_min=serv, deadhead_min=dead,
+             deadhead_pct=100.0 * dkm / (dkm + skm) if dkm + skm else 0.0)
+    s["longest_over_mean"] = s["longest_min"] / s["mean_min"] if s["mean_min"] > 0 else 1.0
+    s["gap"] = s["longest_min"] / s["lower_bound_min"] - 1.0 if s["lower_bound_min"] > 0 else 0.0

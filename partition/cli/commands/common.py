@@ -132,8 +132,8 @@ def measure_table(title: str):
     return t
 
 
-def print_text(text: str) -> None:
-    """Output text on standard output; a failure names standard output (a full device, say)."""
+def print_text(text: str = "") -> None:
+    """Output text on standard output, flushed; a failure names standard output (a full device, say)."""
     import sys
 
     try:
