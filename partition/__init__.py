@@ -25,6 +25,7 @@ _FACE = {
         "Changes", "export", "load_profile", "plan", "read_network", "read_plan", "replan", "report",
         "route_map", "sheets", "table", "territory_map", "verify", "write_demo_town", "write_plan",
         "write_text")},
+    "network_from_graph": "crewcut.solve.readers.nxgraph",
     "Crew": "crewcut.solve.profile",
     "Profile": "crewcut.solve.profile",
     "Network": "crewcut.solve.network.model",

@@ -7,7 +7,11 @@ extension           format                                         module
 .osm                OpenStreetMap XML                               :mod:`crewcut.solve.readers.osm`
 .osm.pbf, .pbf      OpenStreetMap protocol buffer binary            :mod:`crewcut.solve.readers.osm`
 .csv                edge list ``from,to,length_m[,...]``            :mod:`crewcut.solve.readers.csvedges`
+.graphml            a street graph as networkx writes it            :mod:`crewcut.solve.readers.nxgraph`
 =================== ============================================== ==========================
+
+A networkx street graph in memory is read with
+:func:`crewcut.solve.readers.nxgraph.network_from_graph`.
 
 Every reader produces :class:`~crewcut.solve.network.model.RawLine` objects and hands them to
 :func:`crewcut.solve.network.repair.build_network`. Files are only read, never written.
@@ -20,11 +24,11 @@ from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Profile
 
-ALLOWED = ".geojson, .json, .osm, .osm.pbf, .pbf, .csv"
+ALLOWED = ".geojson, .json, .osm, .osm.pbf, .pbf, .csv, .graphml"
 
 
 def file_kind(path: str | Path) -> str:
-    """'geojson', 'osm', 'pbf' or 'csv' from the file name; InputError otherwise."""
+    """'geojson', 'osm', 'pbf', 'csv' or 'graphml' from the file name; InputError otherwise."""
     name = Path(path).name.lower()
     if name.endswith((".geojson", ".json")):
         return "geojson"
@@ -34,6 +38,8 @@ def file_kind(path: str | Path) -> str:
         return "osm"
     if name.endswith(".csv"):
         return "csv"
+    if name.endswith(".graphml"):
+        return "graphml"
     ext = "".join(Path(path).suffixes[-2:]) or "(none)"
     raise InputError(f"{path}: cannot read files with extension '{ext}'",
                      f"give a street network as one of: {ALLOWED}")
@@ -60,6 +66,10 @@ def read_network(path: str | Path, profile: Profile) -> Network:
         from crewcut.solve.readers.csvedges import read_csv_edges
 
         return read_csv_edges(path, profile)
+    if kind == "graphml":
+        from crewcut.solve.readers.nxgraph import read_graphml
+
+        return read_graphml(path, profile)
     from crewcut.solve.readers.osm import read_osm
 
     return read_osm(path, profile)

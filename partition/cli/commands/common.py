@@ -14,7 +14,7 @@ from crewcut.solve.profile import Crew, Profile
 if TYPE_CHECKING:
     from rich.text import Text
 
-NETWORK_HELP = "street network: .geojson/.json, .osm, .osm.pbf/.pbf or .csv"
+NETWORK_HELP = "street network: .geojson/.json, .osm, .osm.pbf/.pbf, .graphml or .csv"
 CONFIG_HELP = "work profile (TOML); default: the shipped curb-sweeping profile"
 
 
