@@ -1,17 +1,46 @@
 """OpenStreetMap reader (``.osm`` XML and ``.osm.pbf``) through pyosmium.
 
-Which ways are kept (drivable streets):
+Which ways are kept (the rules are applied in :mod:`crewcut.solve.readers.osmtags`
+for the profile's ``[vehicle]``):
 
-* ``highway`` is one of the profile's ``osm.highways`` values;
+* ``highway`` is one of the profile's ``osm.highways`` values (a walking profile
+  keeps footways only if its list has ``footway``);
 * not ``area=yes`` (squares and plazas drawn as polygons are not streets);
-* not ``access=no`` or ``access=private``: a crew does not serve private roads
-  unless the owner says so; add such ways to a GeoJSON file if it does.
+* access for the vehicle: the most specific key present decides, among ``hgv``
+  (only for a heavy vehicle, ``vehicle.heavy = true``), ``motor_vehicle``,
+  ``vehicle``, ``access`` for a motor vehicle, and ``foot``, ``access`` for a
+  walker (``vehicle.kind = "foot"``). ``no``, ``private``, ``agricultural``,
+  ``forestry``, ``emergency`` and ``military`` leave the way out. Every other
+  value keeps it: ``yes``, ``permissive``, ``designated``, and also
+  ``destination``, ``delivery`` and ``customers``, because a sweeper, plough or
+  refuse truck serves the street itself; an unknown value keeps the way too.
+  A crew does not serve private roads unless the owner says so; add such ways to
+  a GeoJSON file if it does;
+* not ``service=parking_aisle``, ``driveway``, ``drive-through`` or
+  ``emergency_access`` (car parks, single properties), unless the profile's
+  ``osm.keep_service_kinds`` lists the value;
+* for a motor vehicle, not ``oneway=reversible`` or ``alternating``: such a way
+  changes direction with the time of day and can be planned as neither one-way
+  nor two-way (a walker uses it both ways);
+* not below the vehicle's size: a ``maxweight`` (tonnes), ``maxheight``,
+  ``maxwidth`` or ``maxlength`` (metres) lower than ``vehicle.weight_t``,
+  ``height_m``, ``width_m`` or ``length_m``. A value is a plain number or has a
+  unit (``3.5 t``, ``7500 kg``, ``st``, ``lbs``; ``3 m``, ``cm``, ``11 ft``,
+  ``7'6"``); ``none``, ``default``, ``unsigned`` mean no limit. A value that
+  cannot be read (``3,5``, ``below_default``) keeps the way with a warning: it is
+  not guessed. When the size figures rule out every street, the file is refused.
+
+Every way left out is reported: one warning per reason with the count and the
+first way ids (``312 way(s) left out: access=private (first: way/123, ...)``).
+This filtering is an aid; local signs, traffic law and licensed practice decide.
 
 Direction: ``oneway=yes``/``1``/``true`` is one-way in the drawn direction,
-``oneway=-1`` one-way against it (the line is reversed);
-``junction=roundabout``/``circular`` and ``highway=motorway`` imply one-way
-unless ``oneway=no`` says otherwise (OpenStreetMap's own convention). Other
-oneway values (``reversible``, ``alternating``) count as two-way.
+``oneway=-1`` one-way against it (the line is reversed), ``no``/``false``/``0``
+two-way; ``junction=roundabout``/``circular`` and ``highway=motorway``/
+``motorway_link`` imply one-way unless ``oneway=no`` says otherwise
+(OpenStreetMap's own convention). ``oneway:conditional`` (one-way at some hours)
+is not read: the way counts by its plain ``oneway`` tag; ``oneway:bicycle`` speaks
+for cyclists only and is not read.
 
 Ways are split into segments at their ends and at every node used twice or more
 by the kept ways (intersections; a node repeated inside one way too). A closed
