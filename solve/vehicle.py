@@ -14,7 +14,8 @@ from crewcut.solve.errors import InputError
 VEHICLE_KINDS = ("motor", "foot")
 # The largest figure each size setting may take (common practice, no source): beyond
 # these a figure is a typing slip (a weight in kilograms, a length in feet), not a street vehicle.
-SIZE_LIMITS = {"weight_t": (60.0, "t"), "height_m": (6.0, "m"), "width_m": (4.0, "m"), "length_m": (30.0, "m")}
+SIZE_LIMITS = {"weight_t": (60.0, "tonnes"), "height_m": (6.0, "metres"), "width_m": (4.0, "metres"),
+               "length_m": (30.0, "metres")}
 # which OpenStreetMap limit tag each size setting is compared with
 SIZE_TAGS = {"weight_t": "maxweight", "height_m": "maxheight", "width_m": "maxwidth", "length_m": "maxlength"}
 VEHICLE_KEYS = ("kind", "heavy", *SIZE_LIMITS)

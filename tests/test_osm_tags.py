@@ -273,3 +273,16 @@ def test_helsinki_left_out_counts_match_pyosmium(helsinki_pbf, capsys, monkeypat
     out = " ".join(capsys.readouterr().out.split())
     assert rc == 2 and "left out: access=private" in out and "left out: service=driveway" in out
 
+
+
+def test_check_refuses_a_size_written_with_its_unit(tmp_path, capsys):
+    path = write_osm(tmp_path, [{}])
+    cfg = tmp_path / "lorry.toml"
+    cfg.write_text('[vehicle]\nweight_t = "3.5 t"\n', encoding="utf-8")
+    before = {p.name: p.read_bytes() for p in tmp_path.iterdir()}
+    rc = main(["check", str(path), "--config", str(cfg)])
+    out, err = capsys.readouterr()
+    assert rc == 2 and "Traceback" not in out + err
+    flat = " ".join(err.split())
+    assert "lorry.toml: setting 'vehicle.weight_t' must be a number (in tonnes)" in flat and "weight_t = 3.5" in flat
+    assert {p.name: p.read_bytes() for p in tmp_path.iterdir()} == before
