@@ -14,6 +14,7 @@ from pathlib import Path
 
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_NAMES
+from crewcut.solve.vehicle import Vehicle, vehicle_from_dict
 
 TURN_KINDS = ("u_turn", "across_traffic", "with_traffic", "straight")
 
@@ -29,7 +30,7 @@ _SCHEMA: dict[str, dict[str, type | tuple]] = {
     },
     "turn_penalty_s": {k: (int, float) for k in TURN_KINDS},
     "network": {"snap_tolerance_m": (int, float), "split_at_touch": bool},
-    "osm": {"highways": list},
+    "osm": {"highways": list, "keep_service_kinds": list},
 }
 _CLASS_TABLES = {
     "service_speed_kmh": (int, float),
@@ -111,6 +112,9 @@ class Profile:
         "motorway", "trunk", "primary", "secondary", "tertiary", "unclassified",
         "residential", "living_street", "service", "motorway_link", "trunk_link",
         "primary_link", "secondary_link", "tertiary_link", "road")
+    # OpenStreetMap service=* kinds left out unless osm.keep_service_kinds names them
+    osm_keep_service_kinds: tuple[str, ...] = ()
+    vehicle: Vehicle = field(default_factory=Vehicle)
     crews: tuple[Crew, ...] = ()
     source: str = "<built-in defaults>"
 
@@ -168,7 +172,7 @@ def _at_most(where: str, key: str, value: float, top: float, unit: str) -> None:
 
 def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
     """Validate a parsed TOML document and build a :class:`Profile`."""
-    allowed = set(_SCHEMA) | set(_CLASS_TABLES) | {"crews"}
+    allowed = set(_SCHEMA) | set(_CLASS_TABLES) | {"crews", "vehicle"}
     for key in data:
         if key not in allowed:
             raise InputError(f"{source}: unknown table or key '{key}'",
@@ -219,6 +223,14 @@ def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
         if not hw or not all(isinstance(h, str) for h in hw):
             raise InputError(f"{source}: 'osm.highways' must be a non-empty list of highway values")
         kw["osm_highways"] = tuple(hw)
+    if "keep_service_kinds" in data.get("osm", {}):
+        ks = data["osm"]["keep_service_kinds"]
+        if not all(isinstance(k, str) and k.strip() for k in ks):
+            raise InputError(f"{source}: 'osm.keep_service_kinds' must be a list of service values",
+                             'e.g. keep_service_kinds = ["driveway"]')
+        kw["osm_keep_service_kinds"] = tuple(ks)
+    if "vehicle" in data:
+        kw["vehicle"] = vehicle_from_dict(data["vehicle"], source)
     for table, t in _CLASS_TABLES.items():
         sub = data.get(table)
         if sub is None:

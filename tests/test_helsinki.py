@@ -3,7 +3,9 @@
 Map data (c) OpenStreetMap contributors, ODbL. The reference figures are made here,
 independently of crewcut's reader: pyosmium's SimpleHandler walks the file with a
 node location index, the keep rule documented in solve/readers/osm.py is applied
-to the raw tags, and lengths come from pyproj's Geod over each way's node
+to the raw tags (written again here from the OpenStreetMap wiki's Key:access,
+Key:service, Key:oneway and Key:maxheight/maxweight/maxwidth/maxlength pages, from
+memory, for the shipped curb-sweeping profile's heavy motor vehicle), and lengths come from pyproj's Geod over each way's node
 coordinates (reference library).
 """
 from __future__ import annotations
@@ -21,6 +23,27 @@ DRIVABLE = {"motorway", "trunk", "primary", "secondary", "tertiary", "unclassifi
             "tertiary_link", "road"}  # the shipped curb-sweeping profile's list (crewcut.solve.profile default)
 
 
+# the shipped curb-sweeping profile's [vehicle] figures, by the limit tag each is compared with
+SWEEPER = {"maxweight": 16.0, "maxheight": 3.3, "maxwidth": 2.55, "maxlength": 8.5}
+SHUT = ("no", "private", "agricultural", "forestry", "emergency", "military")
+
+
+def _open_to_the_sweeper(t: dict) -> bool:
+    """Key:access: the most specific key present decides (hgv, motor_vehicle, vehicle, access)."""
+    value = next((t[k] for k in ("hgv", "motor_vehicle", "vehicle", "access") if k in t), None)
+    if value in SHUT or t.get("service") in ("parking_aisle", "driveway", "drive-through", "emergency_access"):
+        return False
+    if t.get("oneway") in ("reversible", "alternating"):
+        return False
+    for key, figure in SWEEPER.items():
+        try:  # plain numbers only: the Helsinki extract writes its limits so (units are tested elsewhere)
+            if float(t.get(key, "inf")) < figure:
+                return False
+        except ValueError:
+            pass
+    return True
+
+
 class _Reference(osmium.SimpleHandler):
     """Counts drivable ways and one-way ways, and sums their geodesic lengths."""
 
@@ -33,7 +56,7 @@ class _Reference(osmium.SimpleHandler):
 
     def way(self, w) -> None:
         t = {tag.k: tag.v for tag in w.tags}
-        if t.get("highway") not in DRIVABLE or t.get("area") == "yes" or t.get("access") in ("no", "private"):
+        if t.get("highway") not in DRIVABLE or t.get("area") == "yes" or not _open_to_the_sweeper(t):
             return
         pts = [(n.lon, n.lat) if n.location.valid() else None for n in w.nodes]
         # only stretches with two consecutive located nodes are inside the extract
@@ -44,7 +67,8 @@ class _Reference(osmium.SimpleHandler):
         # OpenStreetMap convention: roundabouts and motorways are one-way unless oneway=no
         ow = t.get("oneway")
         if ow in ("yes", "1", "true", "-1") or (
-                ow is None and (t.get("junction") in ("roundabout", "circular") or t.get("highway") == "motorway")):
+                ow is None and (t.get("junction") in ("roundabout", "circular")
+                           or t.get("highway") in ("motorway", "motorway_link"))):
             self.oneway += 1
         lons1, lats1 = zip(*[a for a, _ in pairs])
         lons2, lats2 = zip(*[b for _, b in pairs])

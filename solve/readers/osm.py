@@ -1,17 +1,46 @@
 """OpenStreetMap reader (``.osm`` XML and ``.osm.pbf``) through pyosmium.
 
-Which ways are kept (drivable streets):
+Which ways are kept (the rules are applied in :mod:`crewcut.solve.readers.osmtags`
+for the profile's ``[vehicle]``):
 
-* ``highway`` is one of the profile's ``osm.highways`` values;
+* ``highway`` is one of the profile's ``osm.highways`` values (a walking profile
+  keeps footways only if its list has ``footway``);
 * not ``area=yes`` (squares and plazas drawn as polygons are not streets);
-* not ``access=no`` or ``access=private``: a crew does not serve private roads
-  unless the owner says so; add such ways to a GeoJSON file if it does.
+* access for the vehicle: the most specific key present decides, among ``hgv``
+  (only for a heavy vehicle, ``vehicle.heavy = true``), ``motor_vehicle``,
+  ``vehicle``, ``access`` for a motor vehicle, and ``foot``, ``access`` for a
+  walker (``vehicle.kind = "foot"``). ``no``, ``private``, ``agricultural``,
+  ``forestry``, ``emergency`` and ``military`` leave the way out. Every other
+  value keeps it: ``yes``, ``permissive``, ``designated``, and also
+  ``destination``, ``delivery`` and ``customers``, because a sweeper, plough or
+  refuse truck serves the street itself; an unknown value keeps the way too.
+  A crew does not serve private roads unless the owner says so; add such ways to
+  a GeoJSON file if it does;
+* not ``service=parking_aisle``, ``driveway``, ``drive-through`` or
+  ``emergency_access`` (car parks, single properties), unless the profile's
+  ``osm.keep_service_kinds`` lists the value;
+* for a motor vehicle, not ``oneway=reversible`` or ``alternating``: such a way
+  changes direction with the time of day and can be planned as neither one-way
+  nor two-way (a walker uses it both ways);
+* not below the vehicle's size: a ``maxweight`` (tonnes), ``maxheight``,
+  ``maxwidth`` or ``maxlength`` (metres) lower than ``vehicle.weight_t``,
+  ``height_m``, ``width_m`` or ``length_m``. A value is a plain number or has a
+  unit (``3.5 t``, ``7500 kg``, ``st``, ``lbs``; ``3 m``, ``cm``, ``11 ft``,
+  ``7'6"``); ``none``, ``default``, ``unsigned`` mean no limit. A value that
+  cannot be read (``3,5``, ``below_default``) keeps the way with a warning: it is
+  not guessed. When the size figures rule out every street, the file is refused.
+
+Every way left out is reported: one warning per reason with the count and the
+first way ids (``312 way(s) left out: access=private (first: way/123, ...)``).
+This filtering is an aid; local signs, traffic law and licensed practice decide.
 
 Direction: ``oneway=yes``/``1``/``true`` is one-way in the drawn direction,
-``oneway=-1`` one-way against it (the line is reversed);
-``junction=roundabout``/``circular`` and ``highway=motorway`` imply one-way
-unless ``oneway=no`` says otherwise (OpenStreetMap's own convention). Other
-oneway values (``reversible``, ``alternating``) count as two-way.
+``oneway=-1`` one-way against it (the line is reversed), ``no``/``false``/``0``
+two-way; ``junction=roundabout``/``circular`` and ``highway=motorway``/
+``motorway_link`` imply one-way unless ``oneway=no`` says otherwise
+(OpenStreetMap's own convention). ``oneway:conditional`` (one-way at some hours)
+is not read: the way counts by its plain ``oneway`` tag; ``oneway:bicycle`` speaks
+for cyclists only and is not read.
 
 Ways are split into segments at their ends and at every node used twice or more
 by the kept ways (intersections; a node repeated inside one way too). A closed
@@ -34,42 +63,45 @@ import numpy as np
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import Finding, Network, RawLine
 from crewcut.solve.profile import Profile
+from crewcut.solve.readers.osmtags import (EXCLUDED_SERVICE_KINDS, WayRules, rules_for, size_verdict,
+                                           way_direction, way_refusal)
+from crewcut.solve.vehicle import SIZE_TAGS, Vehicle
 from crewcut.solve.network.repair import build_network
 
-ONEWAY_YES = ("yes", "1", "true")
-IMPLIED_ONEWAY_JUNCTIONS = ("roundabout", "circular")
-EXCLUDED_ACCESS = ("no", "private")
+LEFT_OUT_SHOWN = 5  # way ids named per reason in a finding
 
 
-def way_is_drivable(tags, highways) -> bool:
-    """The keep rule above, on a tag mapping (``osmium`` TagList or dict)."""
-    return (tags.get("highway") in highways and tags.get("area") != "yes"
-            and tags.get("access") not in EXCLUDED_ACCESS)
+def way_is_drivable(tags, highways, rules: WayRules | None = None) -> bool:
+    """The keep rule above, sizes aside, on a tag mapping (``osmium`` TagList or dict)."""
+    rules = rules or WayRules(frozenset(highways), Vehicle(), frozenset(EXCLUDED_SERVICE_KINDS))
+    return tags.get("highway") in highways and way_refusal(tags, rules) is None
 
 
-def way_direction(tags) -> int:
-    """1 one-way as drawn, -1 one-way against the drawing, 0 two-way."""
-    ow = tags.get("oneway")
-    if ow in ONEWAY_YES:
-        return 1
-    if ow == "-1":
-        return -1
-    if ow is None and (tags.get("junction") in IMPLIED_ONEWAY_JUNCTIONS or tags.get("highway") == "motorway"):
-        return 1
-    return 0
-
-
-def _collect(path: Path, highways: frozenset) -> list[tuple]:
+def _collect(path: Path, rules: WayRules) -> tuple[list[tuple], dict, dict, dict]:
+    """Kept ways; way ids left out by tag, left out by size, and kept with an unreadable limit (by reason)."""
     import osmium
 
     ways = []
+    refused: dict[str, list[int]] = {}
+    too_big: dict[str, list[int]] = {}
+    unreadable: dict[str, list[int]] = {}
     try:
         proc = osmium.FileProcessor(str(path), osmium.osm.NODE | osmium.osm.WAY).with_locations()
         for obj in proc:
             if not obj.is_way():
                 continue
             tags = obj.tags
-            if not way_is_drivable(tags, highways):
+            if tags.get("highway") not in rules.highways:
+                continue
+            reason = way_refusal(tags, rules)
+            if reason:
+                refused.setdefault(reason, []).append(obj.id)
+                continue
+            limit, bad = size_verdict(tags, rules.vehicle)
+            for b in bad:
+                unreadable.setdefault(b.split("=", 1)[0], []).append(obj.id)
+            if limit:
+                too_big.setdefault(limit.split("=", 1)[0], []).append(obj.id)
                 continue
             refs, lon, lat = [], [], []
             for nd in obj.nodes:
@@ -81,19 +113,58 @@ def _collect(path: Path, highways: frozenset) -> list[tuple]:
                 else:
                     lon.append(np.nan)
                     lat.append(np.nan)
+            direction = way_direction(tags)
+            if direction is None:  # only a walker gets here (way_refusal drops it for a motor vehicle)
+                direction = 0  # a reversible way is walked both ways
             ways.append((obj.id, np.asarray(refs, np.int64), np.column_stack([lon, lat]) if refs else None,
-                         tags.get("highway"), tags.get("name", ""), way_direction(tags)))
+                         tags.get("highway"), tags.get("name", ""), direction))
     except (RuntimeError, ValueError, OverflowError, osmium.InvalidLocationError) as exc:  # pyosmium's errors
         raise InputError(f"{path}: not a readable OpenStreetMap file ({exc})",
                          "check that the file is complete and really .osm XML or .osm.pbf; download it again") from None
-    return ways
+    return ways, refused, too_big, unreadable
+
+
+def _first(ids: list[int]) -> str:
+    more = ", ..." if len(ids) > LEFT_OUT_SHOWN else ""
+    return ", ".join(f"way/{w}" for w in ids[:LEFT_OUT_SHOWN]) + more
+
+
+def left_out_findings(refused: dict, too_big: dict, unreadable: dict, vehicle: Vehicle) -> list[Finding]:
+    """One finding per reason, with the count and the first way ids."""
+    out = []
+    for reason, ids in sorted(refused.items()):
+        hint = ("reversible and alternating ways change direction with the time of day; add the street "
+                "to a GeoJSON file with the direction your crew drives it" if reason.startswith("oneway=")
+                else "add the street to a GeoJSON file if your crew does serve it"
+                + ("" if not reason.startswith("service=") else
+                   f", or list {reason.split('=', 1)[1]!r} in osm.keep_service_kinds"))
+        out.append(Finding("warning", f"way/{ids[0]}", f"{len(ids)} way(s) left out: {reason} (first: {_first(ids)})",
+                           hint))
+    by_tag = {SIZE_TAGS[k]: (k, f) for k, f in vehicle.sizes().items()}
+    for key, ids in sorted(too_big.items()):
+        setting, figure = by_tag[key]
+        out.append(Finding("warning", f"way/{ids[0]}",
+                           f"{len(ids)} way(s) left out: {key} below the vehicle's {setting} = {figure:g} "
+                           f"(first: {_first(ids)})",
+                           f"check vehicle.{setting} in the profile; local signs decide"))
+    for key, ids in sorted(unreadable.items()):
+        out.append(Finding("warning", f"way/{ids[0]}",
+                           f"{len(ids)} way(s) kept although their {key} value could not be read (first: {_first(ids)})",
+                           f"check the signs on these streets against vehicle.{next(k for k, t in SIZE_TAGS.items() if t == key)}"))
+    return out
 
 
 def read_osm(path: str | Path, profile: Profile) -> Network:
     """Read drivable streets from an OpenStreetMap file into a :class:`~crewcut.solve.network.model.Network`."""
     path = Path(path)
-    ways = _collect(path, frozenset(profile.osm_highways))
-    findings: list[Finding] = []
+    rules = rules_for(profile)
+    ways, refused, too_big, unreadable = _collect(path, rules)
+    if too_big and not ways:
+        sizes = ", ".join(f"vehicle.{k} = {v:g}" for k, v in profile.vehicle.sizes().items()
+                          if SIZE_TAGS[k] in too_big)
+        raise InputError(f"{profile.source}: the vehicle's {sizes} rules out every street in {path}",
+                         "check the vehicle's figures in the profile (tonnes and metres), or use another extract")
+    findings = left_out_findings(refused, too_big, unreadable, profile.vehicle)
     # drop consecutive repeats and break ways at nodes without a location
     runs = []
     cut_ways = []
