@@ -63,18 +63,12 @@ import numpy as np
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import Finding, Network, RawLine
 from crewcut.solve.profile import Profile
-from crewcut.solve.readers.osmtags import (EXCLUDED_SERVICE_KINDS, WayRules, rules_for, size_verdict,
+from crewcut.solve.readers.osmtags import (WayRules, rules_for, size_verdict,
                                            way_direction, way_refusal)
 from crewcut.solve.vehicle import SIZE_TAGS, Vehicle
 from crewcut.solve.network.repair import build_network
 
 LEFT_OUT_SHOWN = 5  # way ids named per reason in a finding
-
-
-def way_is_drivable(tags, highways, rules: WayRules | None = None) -> bool:
-    """The keep rule above, sizes aside, on a tag mapping (``osmium`` TagList or dict)."""
-    rules = rules or WayRules(frozenset(highways), Vehicle(), frozenset(EXCLUDED_SERVICE_KINDS))
-    return tags.get("highway") in highways and way_refusal(tags, rules) is None
 
 
 def _collect(path: Path, rules: WayRules) -> tuple[list[tuple], dict, dict, dict]:
