@@ -72,8 +72,10 @@ def check_folder(path: str | Path, names: Iterable[str], inputs: Iterable[str | 
                  option: str = "--out") -> Path:
     """An output folder (it may not exist yet) whose files ``names`` replace no input."""
     folder = Path(path)
+    names = list(names)
     if folder.exists() and not folder.is_dir():
-        raise InputError(f"{option} '{folder}' is a file, not a folder", "give a folder for the outputs")
+        what = names[0] if len(names) == 1 else "the outputs"
+        raise InputError(f"{option} '{folder}' is a file, not a folder", f"give a folder for {what}")
     inputs = list(inputs)
     for name in names:
         check_target(folder / name, inputs, option)

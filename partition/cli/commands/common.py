@@ -7,7 +7,6 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Iterable
 
 from crewcut.solve.network.depot import check_depot_node, snap_depot
-from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Crew, Profile
 
@@ -48,10 +47,7 @@ def out_folder(path: str | Path, what: str = "plan.json", inputs: Iterable[str |
     """An output folder that may not exist yet but must not be a file, whose ``what`` replaces no input."""
     from crewcut.cli.outputs import check_folder
 
-    out = Path(path)
-    if out.exists() and not out.is_dir():
-        raise InputError(f"--out '{out}' is a file, not a folder", f"give a folder for {what}")
-    return check_folder(out, [what], inputs)
+    return check_folder(path, [what], inputs)
 
 
 def plan_inputs(plan_path: str | Path, pv) -> list[str | Path | None]:
