@@ -94,6 +94,11 @@ class Network:
     has_geometry: bool = True
     origin: tuple[float, float] = (0.0, 0.0)  # lon/lat of the local projection's centre
     findings: tuple[Finding, ...] = field(default_factory=tuple)
+    # Forbidden turns (legal restrictions such as OpenStreetMap's type=restriction):
+    # rows (arrive_seg, arrive_fwd, depart_seg, depart_fwd), arriving along arrive_seg and
+    # leaving along depart_seg at their shared node; *_fwd is 1 for seg_u -> seg_v.
+    turn_bans: np.ndarray = field(default_factory=lambda: np.zeros((0, 4), np.int64))
+    turn_ban_source: tuple[str, ...] = ()  # the restriction each row comes from (e.g. "r123")
 
     # ----------------------------------------------------------------- sizes
     @property
@@ -164,6 +169,8 @@ class Network:
             h.update(np.ascontiguousarray(arr, dtype="u1").tobytes())
         h.update(np.ascontiguousarray(self.seg_service, dtype="u1").tobytes())
         h.update("\x1f".join(self.seg_source).encode())
+        if self.turn_bans.size:  # networks without bans keep the fingerprint they always had
+            h.update(np.ascontiguousarray(self.turn_bans, dtype="<i8").tobytes())
         return h.hexdigest()
 
     def to_networkx(self):
