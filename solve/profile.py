@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import math
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from importlib import resources
 from pathlib import Path
 
@@ -16,6 +16,7 @@ from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_NAMES
 from crewcut.solve.vehicle import Vehicle, vehicle_from_dict
 
+UNSERVABLE_POLICIES = ("refuse", "leave_out")  # see crewcut.solve.network.scope
 TURN_KINDS = ("u_turn", "across_traffic", "with_traffic", "straight")
 
 # Keys allowed in each table, with the type each value must have.
@@ -29,7 +30,7 @@ _SCHEMA: dict[str, dict[str, type | tuple]] = {
         "depot_snap_max_m": (int, float),
     },
     "turn_penalty_s": {k: (int, float) for k in TURN_KINDS},
-    "network": {"snap_tolerance_m": (int, float), "split_at_touch": bool},
+    "network": {"snap_tolerance_m": (int, float), "split_at_touch": bool, "unservable": str, "service_area": str},
     "osm": {"highways": list, "keep_service_kinds": list},
 }
 _CLASS_TABLES = {
@@ -115,6 +116,9 @@ class Profile:
     # OpenStreetMap service=* kinds left out unless osm.keep_service_kinds names them
     osm_keep_service_kinds: tuple[str, ...] = ()
     vehicle: Vehicle = field(default_factory=Vehicle)
+    # streets no closed route from a depot can serve: "leave_out" (listed) or "refuse"
+    unservable: str = "leave_out"
+    service_area: str | None = None  # a GeoJSON polygon file (a config's relative path is taken from its folder)
     crews: tuple[Crew, ...] = ()
     source: str = "<built-in defaults>"
 
@@ -218,6 +222,17 @@ def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
         kw["snap_tolerance_m"] = float(net["snap_tolerance_m"])
     if "split_at_touch" in net:
         kw["split_at_touch"] = net["split_at_touch"]
+    if "unservable" in net:
+        if net["unservable"] not in UNSERVABLE_POLICIES:
+            raise InputError(f"{source}: setting 'network.unservable' is {net['unservable']!r}",
+                             f"allowed: {', '.join(UNSERVABLE_POLICIES)} (what to do with streets no closed route "
+                             "from a depot can serve)")
+        kw["unservable"] = net["unservable"]
+    if "service_area" in net:
+        if not net["service_area"].strip():
+            raise InputError(f"{source}: setting 'network.service_area' is empty",
+                             "give the GeoJSON file of the district's polygon, or remove the setting")
+        kw["service_area"] = net["service_area"]
     if "highways" in data.get("osm", {}):
         hw = data["osm"]["highways"]
         if not hw or not all(isinstance(h, str) for h in hw):
@@ -319,7 +334,10 @@ def load_profile(path: str | Path | None) -> Profile:
         raise InputError(f"{path}: not valid TOML ({exc})") from None
     except RecursionError:
         raise InputError(f"{path}: TOML nested too deeply to be a work profile") from None
-    return profile_from_dict(data, source=str(path))
+    profile = profile_from_dict(data, source=str(path))
+    if profile.service_area is not None and not Path(profile.service_area).is_absolute():
+        return replace(profile, service_area=str(path.parent / profile.service_area))
+    return profile
 
 
 def _configs_dir() -> Path:

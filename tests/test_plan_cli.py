@@ -103,7 +103,7 @@ def test_bad_depot_cannot_reach(tmp_path, capsys):
                      service="none", closed=True)
     path = tmp_path / "island.geojson"
     write_geojson(path, lines + island + [bridge])
-    _bad(capsys, tmp_path, path, "--crews", 2, "--depot", "-30.5,45.2", expect="isle-")
+    _bad(capsys, tmp_path, path, "--crews", 2, "--depot", "-30.5,45.2", "--unservable", "refuse", expect="isle-")
 
 
 def test_bad_shift_limit_no_route_can_meet(tmp_path, town, capsys):

@@ -132,8 +132,17 @@ def test_island_behind_closed_bridge_names_the_segments():
     net = build_network(lines + island + [bridge], profile)
     crews = resolve_crews(net, profile, k=2, depot_lonlat=(-30.5, 45.2))
     with pytest.raises(InputError) as exc:
-        plan_fleet(net, profile, crews, workers=1)
-    assert "isle-" in exc.value.message and "cannot be reached" in exc.value.message
+        plan_fleet(net, profile, crews, workers=1, unservable="refuse")
+    assert "isle-" in exc.value.message and "no closed route" in exc.value.message
+    assert exc.value.param == "unservable"
+    # left out instead: every island street listed, none served (the island has no depot; a fact of
+    # graph connectivity, no source needed)
+    plan = plan_fleet(net, profile, crews, workers=1, unservable="leave_out")
+    isle = {s for s in range(net.n_segments) if net.seg_source[s].startswith("isle-")}
+    assert {x.segment for x in plan.left_out} == isle
+    assert {x.reason for x in plan.left_out} == {"outside_depot_reach"}
+    served = {t.segment for c in plan.crews for r in c.routes for t in r.traversals}
+    assert not served & isle
 
 
 @pytest.mark.parametrize("k", [0, -1])

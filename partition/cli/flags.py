@@ -28,6 +28,8 @@ FLAGS: dict[str, str] = {
     "net": "--network",
     "profile": "--config",
     "n_segments": "--segments",
+    "area": "--area",
+    "unservable": "--unservable",
 }
 
 _NAMED = re.compile(r"`([A-Za-z_][A-Za-z0-9_]*)`")

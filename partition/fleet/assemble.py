@@ -68,7 +68,8 @@ def route_and_balance(router: Router, sg: StreetGraph, eligible: np.ndarray, cre
 
 def finish_plan(net: Network, profile: Profile, crews: list[Crew], state: FleetState, bal: BalanceReport | None, *,
                 options: RunOptions, source: str, method: str = FRESH_METHOD, history: History | None = None,
-                deferred: list[DeferredSegment] | None = None, progress: ProgressFn | None = None) -> Plan:
+                deferred: list[DeferredSegment] | None = None, progress: ProgressFn | None = None,
+                left_out=None) -> Plan:
     """The lower bound for the crews at work, the summary and the plan.
 
     With a defer list, the bound covers only the segments still served
@@ -88,7 +89,7 @@ def finish_plan(net: Network, profile: Profile, crews: list[Crew], state: FleetS
              for i, c in enumerate(crews)]
     summary = fleet_summary(plans, lb, bal, method=method, deferred=deferred)
     return build_plan(net, profile, plans, source=source, options=options, summary=summary, history=history,
-                   deferred=deferred)
+                      deferred=deferred, left_out=left_out)
 
 
 def fleet_summary(plans: list[CrewPlan], lower_bound_min: float, bal: BalanceReport | None = None, *,

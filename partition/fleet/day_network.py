@@ -16,6 +16,7 @@ import numpy as np
 from crewcut.solve.costs import deadhead_minutes, service_minutes
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_LABELS, Network, RawLine
+from crewcut.solve.network.scope import segments_inside, without_service
 from crewcut.solve.profile import Profile
 
 from crewcut.fleet.territories import describe_segment
@@ -261,6 +262,22 @@ def _no_mid_touch(base: Network, add: Network, ax, ay, joined: np.ndarray, tol: 
                          f"not at an intersection",
                          "end the new street at an existing intersection or street end (splitting a segment "
                          "would change the plan's segment ids), or re-plan with the new streets in the network")
+
+
+def scope_of_parent(plan: Plan, net: Network, profile: Profile) -> Network:
+    """``net`` as the parent plan served it: its recorded service area and its left-out streets need no service.
+
+    The left-out list is taken as the parent records it (``verify`` re-derives it);
+    the day's changes cannot bring a left-out street back (re-plan for that).
+    """
+    area = plan.settings.options.area
+    if area is not None and net.n_segments >= len(plan.network.segments):
+        from crewcut.solve.costs import required_passes
+
+        need = required_passes(net, profile).total > 0
+        net = without_service(net, np.flatnonzero(need & ~segments_inside(net, area)))
+    left = [s.segment for s in plan.left_out or () if s.reason != "closed" and s.segment < net.n_segments]
+    return without_service(net, np.array(left, np.int64)) if left else net
 
 
 def network_of_the_day(plan: Plan, net: Network, profile: Profile, closed: np.ndarray,

@@ -31,6 +31,8 @@ import numpy as np
 from crewcut.solve.errors import InputError
 from crewcut.solve.seeds import check_seed
 from crewcut.solve.network.model import Network
+from crewcut.solve.network.scope import run_scope
+from crewcut.solve.readers.area import ServiceArea
 from crewcut.solve.profile import Crew, Profile
 from crewcut.solve.circuits.turns import TurnModel
 
@@ -47,7 +49,7 @@ def plan_fleet(net: Network, profile: Profile, crews: list[Crew], *, seed: int =
                workers: int | None = None, time_limit_s: float | None = None, tolerance: float = 0.003,
                max_iterations: int = 500, route_time_limit_s: float = 10.0,
                progress: ProgressFn | None = None, router: Router | None = None,
-               source: str = "") -> Plan:
+               source: str = "", area: ServiceArea | None = None, unservable: str | None = None) -> Plan:
     """Plan territories and routes for ``crews``; returns the plan.
 
     Parameters
@@ -62,10 +64,16 @@ def plan_fleet(net: Network, profile: Profile, crews: list[Crew], *, seed: int =
     max_iterations: the balancer's iteration limit.
     router: a :class:`crewcut.fleet.executor.Router` to use instead of a local pool.
     progress: ``progress(description, done, total)`` callback; the library prints nothing.
+    area: the service area (default: the profile's ``service_area`` file, else every street).
+    unservable: ``"leave_out"`` or ``"refuse"`` for streets no closed route from a depot can
+        serve (default: the profile's); see :mod:`crewcut.solve.network.scope`. Left-out
+        streets are listed in the plan's ``left_out`` with their reasons.
     """
     _check(crews, seed, time_limit_s, tolerance, max_iterations)
     check_workers(workers)
     report = _progress(progress)
+    scope = run_scope(net, profile, [int(c.depot_node) for c in crews], area, unservable)
+    net = scope.network
     sg = build_street_graph(net, profile)
     if not sg.required.any():
         raise InputError("the network has no segment that needs service under this profile",
@@ -100,8 +108,10 @@ def plan_fleet(net: Network, profile: Profile, crews: list[Crew], *, seed: int =
     options = RunOptions(seed=int(seed), crews=tuple(recorded_crew(c) for c in crews),
                          balance=BalanceLimits(float(tolerance), int(max_iterations),
                                                None if time_limit_s is None else float(time_limit_s)),
-                         route_time_limit_s=float(route_time_limit_s))
-    return finish_plan(net, profile, crews, state, bal, options=options, source=source, progress=report)
+                         route_time_limit_s=float(route_time_limit_s), unservable=scope.unservable,
+                         area=scope.area)
+    return finish_plan(net, profile, crews, state, bal, options=options, source=source, progress=report,
+                       left_out=scope.left_out)
 
 
 def _check(crews, seed, time_limit_s, tolerance, max_iterations) -> None:

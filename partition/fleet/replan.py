@@ -88,7 +88,7 @@ from crewcut.fleet.assemble import finish_plan, route_and_balance
 from crewcut.fleet.balancer import FleetState
 from crewcut.fleet.changes import Changes
 from crewcut.fleet.day_crews import OVERFLOW_MODES, check_depots, check_params, crews_of_the_day
-from crewcut.fleet.day_network import network_of_the_day, resolve_closures
+from crewcut.fleet.day_network import network_of_the_day, resolve_closures, scope_of_parent
 from crewcut.fleet.executor import LocalRouter, RouteJob, Router, check_workers
 from crewcut.fleet.handover import BAND, grow_extra, grow_pool, pool_quotas, release_pieces, transfers
 from crewcut.fleet.progress import ProgressFn, with_log
@@ -140,7 +140,8 @@ def replan(plan: Plan, net: Network, changes: Changes, *, profile: Profile | Non
         recorded = plan.settings.options.route_time_limit_s
         route_time_limit_s = 10.0 if recorded is None else recorded
     closed = resolve_closures(plan, changes.closed)
-    today, added = network_of_the_day(plan, net, profile, closed, changes.opened, name=network_name)
+    today, added = network_of_the_day(plan, scope_of_parent(plan, net, profile), profile, closed, changes.opened,
+                                      name=network_name)
     crews = crews_of_the_day(plan, today, profile, changes)
     k, m = len(crews), today.n_segments
     report("network", 0, 1)
@@ -220,7 +221,7 @@ def replan(plan: Plan, net: Network, changes: Changes, *, profile: Profile | Non
     history = _history(plan, parent, crews, changes, closed, added, today, stability, overflow)
     source = plan.network.source if source is None else source
     return finish_plan(today, profile, crews, state, bal, options=options, source=source, method=REPLAN_METHOD,
-                       history=history, deferred=deferred, progress=report)
+                       history=history, deferred=deferred, progress=report, left_out=plan.left_out)
 
 
 def _keeps_route(old: CrewPlan, terr: np.ndarray, depot: int, today: Network) -> bool:

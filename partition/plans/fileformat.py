@@ -17,7 +17,9 @@ import math
 import numpy as np
 
 from crewcut.solve.errors import InputError
+from crewcut.solve.network.scope import LeftOutStreet
 from crewcut.solve.profile import Crew, Profile, crew_id_problem, profile_from_dict
+from crewcut.solve.readers.area import ServiceArea
 from crewcut.solve.result import Route, RouteTotals, Traversal
 
 from crewcut.plans.schema import schema_problem
@@ -134,9 +136,10 @@ def _deferred_dict(d: DeferredSegment) -> dict:
 # The key order of the run options: a replan keeps its parent's keys in place and appends its own,
 # so the order depends on the lineage: a one-crew plan's (command), a fleet plan's (balance), or neither.
 _OPTION_ORDER = {
-    "route": ("command", "depot_node", "seed", "turn_aware", "crews", "rebalance", "route_time_limit_s"),
-    "fleet": ("seed", "crews", "balance", "route_time_limit_s", "rebalance"),
-    "other": ("seed", "crews", "rebalance", "route_time_limit_s"),
+    "route": ("command", "depot_node", "seed", "turn_aware", "unservable", "area", "crews", "rebalance",
+              "route_time_limit_s"),
+    "fleet": ("seed", "crews", "unservable", "area", "balance", "route_time_limit_s", "rebalance"),
+    "other": ("seed", "crews", "unservable", "area", "rebalance", "route_time_limit_s"),
 }
 
 
@@ -152,6 +155,8 @@ def options_dict(o: RunOptions) -> dict:
             v = [{"id": c.id, "depot_node": c.depot_node, "shift_limit_min": c.shift_limit_min} for c in v]
         elif key in ("balance", "rebalance"):
             v = dataclasses.asdict(v)
+        elif key == "area":
+            v = {"source": v.source, **v.to_geojson()}
         out[key] = v
     return out
 
@@ -172,7 +177,15 @@ def plan_to_dict(plan: Plan) -> dict:
     }
     if plan.deferred is not None:
         doc["deferred"] = [_deferred_dict(d) for d in plan.deferred]
+    if plan.left_out is not None:
+        doc["left_out"] = [left_out_dict(s) for s in plan.left_out]
     return doc
+
+
+def left_out_dict(s: LeftOutStreet) -> dict:
+    """A left-out street as the file records it."""
+    return {"segment": s.segment, "source_id": s.source_id, "name": s.name, "length_m": rnd(s.length_m, 3),
+            "reason": s.reason}
 
 
 # ------------------------------------------------------------------ document -> typed
@@ -355,6 +368,10 @@ def _options(rec: dict) -> RunOptions:
         kw["balance"] = BalanceLimits(**kw["balance"])
     if kw.get("rebalance") is not None:
         kw["rebalance"] = ReplanLimits(**kw["rebalance"])
+    if kw.get("area") is not None:
+        a = kw["area"]
+        kw["area"] = ServiceArea(tuple(tuple(tuple((float(x), float(y)) for x, y in ring) for ring in poly)
+                                       for poly in a["coordinates"]), str(a.get("source") or ""))
     return RunOptions(**kw)
 
 
@@ -418,10 +435,14 @@ def plan_from_dict(doc: dict, name: str = "plan", *, trusted: bool = False) -> P
         raise InputError(f"{name}: damaged plan file: {problem}", FIX)
     try:
         deferred = doc.get("deferred")
+        left = doc.get("left_out")
         return Plan(settings=_settings(doc["settings"]), network=_network(doc["network"]),
                     crews=tuple(_crew(c) for c in doc["crews"]), summary=_summary(doc.get("summary") or {}),
                     history=_history(doc.get("history") or {}),
-                    deferred=None if deferred is None else tuple(_deferred(i, d) for i, d in enumerate(deferred)))
+                    deferred=None if deferred is None else tuple(_deferred(i, d) for i, d in enumerate(deferred)),
+                    left_out=None if left is None else tuple(
+                        LeftOutStreet(d["segment"], d["source_id"], d["name"], d["length_m"], d["reason"])
+                        for d in left))
     except InputError as exc:
         raise InputError(f"{name}: damaged plan file: {exc.message}", FIX) from None
     except (KeyError, TypeError, ValueError, AttributeError, IndexError) as exc:

@@ -17,7 +17,9 @@ from __future__ import annotations
 import dataclasses
 from dataclasses import dataclass
 
+from crewcut.solve.network.scope import LeftOutStreet
 from crewcut.solve.profile import Crew, Profile
+from crewcut.solve.readers.area import ServiceArea
 from crewcut.solve.result import Route
 
 FORMAT = "crewcut-plan"
@@ -130,7 +132,9 @@ class RunOptions:
     ``plan`` records ``seed``, ``crews`` (each with its depot node and shift limit),
     ``balance`` and ``route_time_limit_s``; ``route`` records ``command``,
     ``depot_node``, ``seed`` and ``turn_aware``; a replan keeps its parent's options
-    and sets ``seed``, ``crews``, ``rebalance`` and ``route_time_limit_s``.
+    and sets ``seed``, ``crews``, ``rebalance`` and ``route_time_limit_s``. Both
+    record ``unservable`` (the policy for streets no closed route can serve,
+    :mod:`crewcut.solve.network.scope`) and ``area`` (the service area, None: every street).
     """
 
     seed: int | None = None
@@ -141,6 +145,8 @@ class RunOptions:
     command: str | None = None
     depot_node: int | None = None
     turn_aware: bool | None = None
+    unservable: str | None = None
+    area: ServiceArea | None = None
 
 
 @dataclass(frozen=True)
@@ -327,7 +333,9 @@ class Plan:
 
     ``summary`` is None when the producer recorded none (the file's ``{}``);
     ``deferred`` is None when the plan has no defer list (a replan with
-    ``overflow="defer"`` always has one, possibly empty).
+    ``overflow="defer"`` always has one, possibly empty). ``left_out``: the streets
+    that need service but no crew serves, each with its reason (None: a plan made
+    before such lists were kept).
     """
 
     settings: PlanSettings
@@ -336,6 +344,7 @@ class Plan:
     summary: FleetSummary | RouteSummary | None = None
     history: History = History()
     deferred: tuple[DeferredSegment, ...] | None = None
+    left_out: tuple[LeftOutStreet, ...] | None = None
 
     def crew_ids(self) -> list[str]:
         return [c.id for c in self.crews]

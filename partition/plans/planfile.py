@@ -18,15 +18,17 @@ import hashlib
 import json
 import re
 from pathlib import Path
+from typing import Sequence
 
 from crewcut.solve.costs import Passes, deadhead_minutes, required_passes, service_minutes
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_LABELS, Network
+from crewcut.solve.network.scope import LeftOutStreet
 from crewcut.solve.profile import Profile
 
 from crewcut.files import atomic_write
-from crewcut.plans.fileformat import (FIX, crew_section, dumps, history_dict, options_dict, plan_from_dict,
-                                      plan_to_dict, rnd, summary_dict)
+from crewcut.plans.fileformat import (FIX, crew_section, dumps, history_dict, left_out_dict, options_dict,
+                                      plan_from_dict, plan_to_dict, rnd, summary_dict)
 from crewcut.plans.model import (FORMAT, VERSION, CrewPlan, DeferredSegment, FleetSummary, History, Plan,
                                  RouteSummary, RunOptions)
 
@@ -68,7 +70,8 @@ def network_section(net: Network, profile: Profile, source: str = "") -> dict:
 
 def build_plan(net: Network, profile: Profile, crews: list[CrewPlan], *, source: str = "",
             options: RunOptions | None = None, summary: FleetSummary | RouteSummary | None = None,
-            history: History | None = None, deferred: list[DeferredSegment] | None = None) -> Plan:
+            history: History | None = None, deferred: list[DeferredSegment] | None = None,
+            left_out: Sequence[LeftOutStreet] | None = None) -> Plan:
     """Assemble a :class:`Plan` from a network, a profile and the crews' plans, quantised as the file records it.
 
     Parameters
@@ -78,6 +81,7 @@ def build_plan(net: Network, profile: Profile, crews: list[CrewPlan], *, source:
     source: the network file, recorded in the plan.
     options: the run options recorded beside the profile (:class:`crewcut.plans.model.RunOptions`).
     summary, history, deferred: the plan's summary (unrounded), history (default: a fresh plan) and defer list.
+    left_out: the streets that need service but no crew serves (:mod:`crewcut.solve.network.scope`).
 
     Returns the plan with every number rounded as the file rounds it, so that it
     equals the plan read back from its file.
@@ -95,6 +99,8 @@ def build_plan(net: Network, profile: Profile, crews: list[CrewPlan], *, source:
         doc["deferred"] = [{"segment": d.segment, "source_id": d.source_id, "name": d.name, "class": d.road_class,
                             "priority": d.priority, "crew": d.crew, "work_min": d.work_min, "length_m": d.length_m}
                            for d in deferred]
+    if left_out is not None:
+        doc["left_out"] = [left_out_dict(x) for x in left_out]
     return plan_from_dict(json.loads(json.dumps(doc)), trusted=True)
 
 

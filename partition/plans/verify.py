@@ -14,6 +14,8 @@ crewcut writes them never get here: the plan file's reader refuses them
 In order, the first violation found is reported:
 
 1. the recorded profile against the truth (:mod:`crewcut.plans.verify_settings`);
+   what the plan serves: the service area and the left-out list, re-derived
+   (:mod:`crewcut.plans.verify_scope`);
 2. the plan's copy of the network: fingerprint, ends, lengths, one-way flags,
    closures, node positions and labels, feature ids, names, road classes,
    service kinds, drawn lines, passes, service and deadhead minutes
@@ -36,11 +38,13 @@ from dataclasses import dataclass
 from crewcut.solve.costs import required_passes
 from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Profile
+from crewcut.solve.readers.area import ServiceArea
 
 from crewcut.plans.model import Plan
 from crewcut.plans.verify_figures import check_figures
 from crewcut.plans.verify_network import check_network
 from crewcut.plans.verify_routes import check_routes
+from crewcut.plans.verify_scope import scope_truth
 from crewcut.plans.verify_settings import check_crews, check_deferred, check_profile, profile_differences
 from crewcut.plans.violation import Violation
 
@@ -71,7 +75,8 @@ class Verdict:
         return not self.violations
 
 
-def verify_plan(plan: Plan, net: Network, config: Profile | None = None, *, first_only: bool = True) -> Verdict:
+def verify_plan(plan: Plan, net: Network, config: Profile | None = None, *, first_only: bool = True,
+                area: ServiceArea | None = None) -> Verdict:
     """Check ``plan`` against ``net`` and, when given, the config's profile ``config``.
 
     Parameters
@@ -81,14 +86,16 @@ def verify_plan(plan: Plan, net: Network, config: Profile | None = None, *, firs
         plan's own profile, :func:`profile_of_plan`).
     config : the work profile that is the truth; ``None`` checks against the plan's recorded settings.
     first_only : stop at the first violation.
+    area : the service area the plan must have been made for (default: the config's
+        ``network.service_area``, else the plan's recorded area).
     """
     profile = config if config is not None else profile_of_plan(plan)
-    found = check_plan(plan, net, profile, first_only=first_only, from_config=config is not None)
+    found = check_plan(plan, net, profile, first_only=first_only, from_config=config is not None, area=area)
     return Verdict(tuple(found), PROFILE_FROM_CONFIG if config is not None else PROFILE_FROM_PLAN, profile)
 
 
 def check_plan(plan: Plan, net: Network, profile: Profile, *, first_only: bool = True,
-               from_config: bool = True) -> list[Violation]:
+               from_config: bool = True, area: ServiceArea | None = None) -> list[Violation]:
     """All violations found against ``net`` and ``profile`` (just the first one with ``first_only``).
 
     ``profile`` is the truth: the plan's recorded profile must equal it.
@@ -96,15 +103,24 @@ def check_plan(plan: Plan, net: Network, profile: Profile, *, first_only: bool =
     truth for the crews' depots and shift limits too.
     """
     out: list[Violation] = []
-    for v in _checks(plan, net, profile, from_config):
+    for v in _checks(plan, net, profile, from_config, area):
         out.append(v)
         if first_only:
             break
     return out
 
 
-def _checks(plan: Plan, net: Network, profile: Profile, from_config: bool):
-    for part in (check_profile(plan, profile), check_network(plan, net, profile),
+def _checks(plan: Plan, net: Network, profile: Profile, from_config: bool, area: ServiceArea | None):
+    v = next(check_profile(plan, profile), None)
+    if v is not None:
+        yield v
+        return
+    truth = scope_truth(plan, net, profile, area)
+    if truth.violation is not None:
+        yield truth.violation
+        return
+    net = truth.network
+    for part in (check_network(plan, net, profile),
                  check_crews(plan, net, profile, from_config)):
         v = next(part, None)
         if v is not None:

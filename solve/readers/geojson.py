@@ -94,8 +94,11 @@ def _is_position(p) -> bool:
     return isinstance(p, list) and len(p) >= 2 and type(p[0]) in (int, float) and type(p[1]) in (int, float)
 
 
-def _positions(coords, where: str) -> np.ndarray:
-    """A GeoJSON position list -> (k, 2) float array, checked for shape, numbers and range."""
+def parse_positions(coords, where: str, min_count: int = 2, shape: str = "a line") -> np.ndarray:
+    """A GeoJSON position list -> (k, 2) float array, checked for shape, numbers and range.
+
+    ``min_count`` positions at least (2 for a line, 4 for a polygon's ring), ``shape`` names it in messages.
+    """
     if not isinstance(coords, list):
         raise InputError(f"{where}: 'coordinates' is not a list of positions")
     bad = next((j for j, p in enumerate(coords) if not _is_position(p)), None)
@@ -109,9 +112,10 @@ def _positions(coords, where: str) -> np.ndarray:
     except (TypeError, ValueError):
         raise InputError(f"{where}: a position is not a pair of numbers",
                          "every position must be [longitude, latitude] in degrees") from None
-    if arr.ndim != 2 or arr.shape[0] < 2:
-        raise InputError(f"{where}: a line needs at least 2 positions, found {len(coords)}",
-                         "remove the feature or give it a start and an end position")
+    if arr.ndim != 2 or arr.shape[0] < min_count:
+        raise InputError(f"{where}: {shape} needs at least {min_count} positions, found {len(coords)}",
+                         "remove the feature or give it a start and an end position" if min_count == 2 else
+                         "close each ring: at least 4 positions, the last the same as the first (RFC 7946 3.1.6)")
     if arr.shape[1] != 2 or not np.isfinite(arr).all():
         raise InputError(f"{where}: a position is not a pair of numbers",
                          "every position must be [longitude, latitude] in degrees")
@@ -178,28 +182,32 @@ def features_to_lines(doc, source: str) -> list[RawLine]:
                 raise InputError(f"{where}: MultiLineString has no parts")
             parts = [(f"{fid}/part{k + 1}", c) for k, c in enumerate(coords)]
         for sid, c in parts:
-            arr = _positions(c, f"{source}: feature '{sid}'")
+            arr = parse_positions(c, f"{source}: feature '{sid}'")
             if oneway == -1:  # drawn against the traffic: store it in its legal direction
                 arr = arr[::-1].copy()
             lines.append(RawLine(source_id=sid, coords=arr, **common))
     return lines
 
 
-def read_geojson(path: str | Path, profile: Profile) -> Network:
-    """Read a GeoJSON street file into a repaired :class:`~crewcut.solve.network.model.Network`."""
+def read_json_document(path: str | Path, what: str = "a street file"):
+    """The parsed JSON document of a UTF-8 file; InputError naming the file for anything else."""
     path = Path(path)
     try:
         with open(path, "rb") as fh:
-            doc = json.loads(fh.read().decode("utf-8-sig"))
+            return json.loads(fh.read().decode("utf-8-sig"))
     except json.JSONDecodeError as exc:
         raise InputError(f"{path}: not valid JSON (line {exc.lineno}, column {exc.colno}: {exc.msg})",
                          "fix the JSON syntax there; a GIS export usually gets it right") from None
     except RecursionError:
-        raise InputError(f"{path}: JSON nested too deeply to be a street file",
-                         "a GeoJSON street file nests a few levels deep; check that this is the right file") from None
+        raise InputError(f"{path}: JSON nested too deeply to be {what}",
+                         "GeoJSON nests a few levels deep; check that this is the right file") from None
     except UnicodeDecodeError:
         raise InputError(f"{path}: not a UTF-8 text file", "GeoJSON must be UTF-8 encoded (RFC 7946)") from None
     except OSError as exc:
         raise InputError(f"{path}: cannot be read ({exc.strerror})") from None
-    lines = features_to_lines(doc, str(path))
+
+
+def read_geojson(path: str | Path, profile: Profile) -> Network:
+    """Read a GeoJSON street file into a repaired :class:`~crewcut.solve.network.model.Network`."""
+    lines = features_to_lines(read_json_document(path), str(path))
     return build_network(lines, profile, has_geometry=True, source=str(path))

@@ -43,6 +43,28 @@ def add_network_arguments(parser: argparse.ArgumentParser, config_help: str = CO
     parser.add_argument("--config", metavar="FILE", help=config_help)
 
 
+def add_scope_arguments(parser: argparse.ArgumentParser) -> None:
+    """--area and --unservable: which streets the run serves, worded the same in plan, route and check."""
+    parser.add_argument("--area", metavar="FILE",
+                        help="GeoJSON Polygon or MultiPolygon of the district to serve: a street needs service when "
+                             "the middle of its length lies inside; the others may be driven, never served "
+                             "(default: the config's network.service_area, else every street)")
+    parser.add_argument("--unservable", choices=("leave_out", "refuse"), default=None,
+                        help="streets that need service but lie on no closed route from a depot (one-way traps, "
+                             "pieces cut off at the extract's border): leave_out lists them with their reasons "
+                             "and plans the rest; refuse stops with them named (default: the config's "
+                             "network.unservable, else leave_out)")
+
+
+def scope_area(args):
+    """The service area --area names, read and checked, or None."""
+    if not getattr(args, "area", None):
+        return None
+    from crewcut.solve.readers.area import read_area
+
+    return read_area(args.area)
+
+
 def out_folder(path: str | Path, what: str = "plan.json", inputs: Iterable[str | Path | None] = ()) -> Path:
     """An output folder that may not exist yet but must not be a file, whose ``what`` replaces no input."""
     from crewcut.cli.outputs import check_folder

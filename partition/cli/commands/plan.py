@@ -5,7 +5,8 @@ import argparse
 import time
 from pathlib import Path
 
-from crewcut.cli.commands.common import add_network_arguments, add_run_arguments, out_folder, stage_progress
+from crewcut.cli.commands.common import (add_network_arguments, add_run_arguments, add_scope_arguments, out_folder,
+                                         scope_area, stage_progress)
 
 NAME = "plan"
 HELP = "split a street network into balanced territories, one per crew, and route every crew"
@@ -18,6 +19,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--depot", metavar="LON,LAT", help="the shared depot of --crews K")
     parser.add_argument("--crew", metavar="ID", action="append", default=None,
                         help="plan only for this crew of the config (repeat for several)")
+    add_scope_arguments(parser)
     add_run_arguments(parser)
     parser.add_argument("--out", metavar="DIR", default="crewcut-out",
                         help="folder for plan.json (default ./crewcut-out)")
@@ -34,13 +36,15 @@ def run(args, ui) -> int:
 
     profile = load_profile(args.config)
     depot = parse_lonlat(args.depot) if args.depot else None
-    out_dir = out_folder(args.out, inputs=[args.network, args.config])
+    out_dir = out_folder(args.out, inputs=[args.network, args.config, args.area, profile.service_area])
+    area = scope_area(args)
     net = read_network(args.network, profile)
     crews = resolve_crews(net, profile, k=args.crews, depot_lonlat=depot, only=args.crew)
     t0 = time.perf_counter()
     with stage_progress(ui) as progress:
         plan = plan_fleet(net, profile, crews, seed=args.seed, workers=args.workers,
-                          time_limit_s=args.time_limit, progress=progress, source=str(args.network))
+                          time_limit_s=args.time_limit, progress=progress, source=str(args.network),
+                          area=area, unservable=args.unservable)
     seconds = time.perf_counter() - t0
     path = write_plan(plan, out_dir / "plan.json")
     _print(ui, plan, path, seconds)
