@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import math
 import tomllib
-from dataclasses import dataclass, field, replace
+from dataclasses import asdict, dataclass, field, fields, replace
 from importlib import resources
 from pathlib import Path
 
@@ -148,7 +148,34 @@ class Profile:
             "deadhead_speed_kmh": dict(self.deadhead_speed_kmh),
             "default_service": dict(self.default_service), "priority": dict(self.priority),
             "snap_tolerance_m": self.snap_tolerance_m, "split_at_touch": self.split_at_touch,
+            # what decides which OpenStreetMap ways become streets: a plan's network is read again with these
+            "osm_highways": list(self.osm_highways), "osm_keep_service_kinds": list(self.osm_keep_service_kinds),
+            "vehicle": {k: v for k, v in asdict(self.vehicle).items() if v is not None},
         }
+
+    def with_recorded(self, base: "Profile") -> "Profile":
+        """``base`` with this profile's recorded settings (those :meth:`to_dict` gives)."""
+        return replace(base, **recorded_fields(self.to_dict()))
+
+
+def recorded_fields(record: dict) -> dict:
+    """A recorded profile (:meth:`Profile.to_dict`, or a plan file's record of it) as Profile field values.
+
+    Keys that are not Profile fields are dropped; lists become tuples, tables dicts, the vehicle a Vehicle.
+    """
+    names = {f.name for f in fields(Profile)}
+    out: dict = {}
+    for key, value in record.items():
+        if key not in names:
+            continue
+        if key == "vehicle":
+            value = Vehicle(**value)
+        elif key in ("osm_highways", "osm_keep_service_kinds"):
+            value = tuple(value)
+        elif isinstance(value, dict):
+            value = dict(value)
+        out[key] = value
+    return out
 
 
 def _type_name(t) -> str:

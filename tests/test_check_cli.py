@@ -209,18 +209,28 @@ def test_depot_distance_is_configurable(capsys, tmp_path):
 def test_one_way_trap_without_depot(capsys, tmp_path, kind, text):
     path = write(tmp_path / "t.geojson", trap_network(kind))
     before = path.read_bytes()
-    assert main(["check", str(path)]) == 2
+    assert main(["check", str(path), "--unservable", "refuse"]) == 2
     out = _flat(capsys.readouterr().out)
     assert f"error spur {text}" in out and "not plannable" in out
+    assert "plannable once 1 street segment(s)" in out and "--unservable leave_out" in out
     assert path.read_bytes() == before and _snapshot(tmp_path) == {"t.geojson": before}
+    # the default policy leaves the trap out, says so, and the network is plannable
+    assert main(["check", str(path)]) == 0
+    out = _flat(capsys.readouterr().out)
+    assert f"warning spur {text}" in out and "left out of every route" in out
+    assert "Result: plannable: 1 street segment(s)" in out and "will be left out" in out
+    assert _snapshot(tmp_path) == {"t.geojson": before}
 
 
 def test_one_way_trap_with_depot(capsys, tmp_path):
     path = write(tmp_path / "t.geojson", trap_network("out"))
     lon, lat = offset(0, 0)
-    assert main(["check", str(path), f"--depot={lon},{lat}"]) == 2
+    assert main(["check", str(path), f"--depot={lon},{lat}", "--unservable", "refuse"]) == 2
     out = _flat(capsys.readouterr().out)
     assert "error spur street 'Tallow Cut' can be reached from the depot but never left back to it" in out
+    assert main(["check", str(path), f"--depot={lon},{lat}"]) == 0
+    out = _flat(capsys.readouterr().out)
+    assert "spur Tallow Cut 1" in out and "no legal way leads from it back to a depot" in out
 
 
 def test_unreadable_pbf(capsys, tmp_path):
@@ -268,7 +278,7 @@ def _random_mixed_network(seed: int) -> dict:
 def test_reachability_from_depot_matches_networkx(tmp_path, seed):
     net = read_network(write(tmp_path / "r.geojson", _random_mixed_network(seed)), Profile())
     depot = 0
-    rep = check_network(net, Profile(), depot)
+    rep = check_network(net, Profile(), depot, "refuse")
     g = net.to_networkx()
     # reference library: networkx graph search on the exported directed multigraph
     fwd = nx.descendants(g, depot) | {depot}
@@ -280,12 +290,15 @@ def test_reachability_from_depot_matches_networkx(tmp_path, seed):
     bad_src = {f.feature for f in rep.findings if f.severity == "error"}
     assert bad_src == {net.seg_source[s] for s in range(net.n_segments) if s not in good}
     assert rep.plannable == (len(good) == net.n_segments)
+    # the left-out list: exactly the segments on no closed walk through the depot, with the reason
+    assert {x.segment for x in rep.left_out} == set(range(net.n_segments)) - good
+    assert all((x.reason == "cannot_be_reached") == (x.segment not in reach) for x in rep.left_out)
 
 
 @pytest.mark.parametrize("seed", range(6))
 def test_traps_without_depot_match_networkx(tmp_path, seed):
     net = read_network(write(tmp_path / "r.geojson", _random_mixed_network(seed)), Profile())
-    rep = check_network(net, Profile())
+    rep = check_network(net, Profile(), unservable="refuse")
     g = net.to_networkx()
     # reference: the largest strongly connected part by length (networkx), one weak piece here
     parts = [c for c in nx.strongly_connected_components(g)]
@@ -294,6 +307,8 @@ def test_traps_without_depot_match_networkx(tmp_path, seed):
     good = {d["segment"] for t, h, d in g.edges(data=True) if t in main_part and h in main_part}
     assert {f.feature for f in rep.findings if f.severity == "error"} == \
         {net.seg_source[s] for s in range(net.n_segments) if s not in good}
+    assert {x.segment for x in rep.left_out} == set(range(net.n_segments)) - good
+    assert rep.plannable_once_left_out == (len(good) < net.n_segments)
 
 
 def test_summary_figures_match_networkx(tmp_path):

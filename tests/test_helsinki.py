@@ -110,8 +110,12 @@ def test_segments_join_at_shared_nodes(helsinki):
 
 def test_check_command_on_helsinki(helsinki_pbf, helsinki, capsys, monkeypatch):
     monkeypatch.setenv("COLUMNS", "300")
-    rc = main(["check", str(helsinki_pbf)])
+    rc = main(["check", str(helsinki_pbf), "--unservable", "refuse"])
     out = " ".join(capsys.readouterr().out.split())
     assert f"{helsinki.n_segments:,}" in out and "total" in out
-    # the extract is cut at its border, so one-way streets run off it: not plannable as it is
-    assert rc == 2 and "can never be" in out
+    # the extract is cut at its border, so one-way streets run off it: not plannable as it is,
+    # but plannable once the streets no closed route can serve are left out
+    assert rc == 2 and "can never be" in out and "plannable once" in out
+    rc = main(["check", str(helsinki_pbf)])
+    out = " ".join(capsys.readouterr().out.split())
+    assert rc == 0 and "will be left out" in out

@@ -6,6 +6,7 @@ from rich.text import Text
 
 from crewcut.plans.model import Plan
 from crewcut.plans.view import PlanView, view
+from crewcut.reports.leftout import left_out_rows
 from crewcut.reports.textsafety import terminal_text
 from crewcut.reports.workload import COLUMNS, fmt, summary_lines, workload_rows
 
@@ -25,4 +26,20 @@ def workload_table(plan: Plan | PlanView) -> Table:
             cells[-1] += " !"
         style = "bold red" if over else ("bold" if r["row"] == "total" else None)
         table.add_row(*[Text(terminal_text(c)) for c in cells], style=style, end_section=len(rows) > 1 and r is rows[-2])
+    return table
+
+
+def left_out_table(items) -> Table:
+    """The streets left unserved, one row per feature and reason, with a total."""
+    rows = left_out_rows(items)
+    table = Table(title="Left out: need service, no crew serves them", title_justify="left", header_style="bold")
+    for col, justify in (("feature", "left"), ("name", "left"), ("segments", "right"), ("length (m)", "right"),
+                         ("reason", "left")):
+        table.add_column(col, justify=justify, overflow="fold")
+    for r in rows:
+        table.add_row(*[Text(terminal_text(x)) for x in (r["source_id"], r["name"], f"{r['segments']:,}",
+                                                          f"{r['length_m']:,.1f}", r["why"])],
+                      end_section=r is rows[-1])
+    table.add_row(Text("total", style="bold"), "", f"{sum(r['segments'] for r in rows):,}",
+                  f"{sum(r['length_m'] for r in rows):,.1f}", "")
     return table

@@ -18,7 +18,7 @@ import numpy as np
 
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.scope import LeftOutStreet
-from crewcut.solve.profile import Crew, Profile, crew_id_problem, profile_from_dict
+from crewcut.solve.profile import Crew, Profile, crew_id_problem, profile_from_dict, recorded_fields
 from crewcut.solve.readers.area import ServiceArea
 from crewcut.solve.result import Route, RouteTotals, Traversal
 
@@ -291,7 +291,9 @@ def _geometry_problem(net: dict) -> str | None:
 
 # Where each recorded profile setting lives in a config file (crewcut.solve.profile.profile_from_dict).
 _PROFILE_TABLES = {"turn_penalty_s": None, "service_speed_kmh": None, "deadhead_speed_kmh": None,
-                   "default_service": None, "priority": None, "snap_tolerance_m": "network", "split_at_touch": "network"}
+                   "default_service": None, "priority": None, "snap_tolerance_m": "network", "split_at_touch": "network",
+                   "vehicle": None, "osm_highways": ("osm", "highways"),
+                   "osm_keep_service_kinds": ("osm", "keep_service_kinds")}
 
 
 def _settings_problem(settings) -> str | None:
@@ -307,6 +309,8 @@ def _settings_problem(settings) -> str | None:
         table = _PROFILE_TABLES.get(key, "profile")
         if table is None:
             data[key] = value
+        elif isinstance(table, tuple):
+            data.setdefault(table[0], {})[table[1]] = value
         else:
             data.setdefault(table, {})[key] = value
     try:
@@ -376,9 +380,7 @@ def _options(rec: dict) -> RunOptions:
 
 
 def _settings(rec: dict) -> PlanSettings:
-    names = {f.name for f in dataclasses.fields(Profile)}
-    prof = {k: (dict(v) if isinstance(v, dict) else v) for k, v in rec.get("profile", {}).items() if k in names}
-    return PlanSettings(dataclasses.replace(Profile(), **prof),
+    return PlanSettings(dataclasses.replace(Profile(), **recorded_fields(rec.get("profile", {}))),
                         _options({k: v for k, v in rec.items() if k != "profile"}))
 
 

@@ -14,7 +14,6 @@ are empty). Route ids in the file are ``route-1``, ``route-2``, ... by position.
 """
 from __future__ import annotations
 
-import dataclasses
 from dataclasses import dataclass
 
 from crewcut.solve.network.scope import LeftOutStreet
@@ -100,9 +99,10 @@ def recorded_crew(crew: Crew) -> Crew:
 def recorded_profile(profile: Profile) -> Profile:
     """The profile as a plan records it: its recorded fields (``Profile.to_dict``) on the built-in defaults.
 
-    The config's crews, source file and OpenStreetMap road list are not part of a plan.
+    The config's crews, source file, service area and unservable policy are not part of the
+    recorded profile (the run options record the last two).
     """
-    return dataclasses.replace(Profile(), **profile.to_dict())
+    return profile.with_recorded(Profile())
 
 
 @dataclass(frozen=True)

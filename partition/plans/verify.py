@@ -32,7 +32,6 @@ cannot know").
 """
 from __future__ import annotations
 
-import dataclasses
 from dataclasses import dataclass
 
 from crewcut.solve.costs import required_passes
@@ -142,11 +141,10 @@ def _checks(plan: Plan, net: Network, profile: Profile, from_config: bool, area:
 def profile_of_plan(plan: Plan, base: Profile | None = None) -> Profile:
     """The profile a plan was made with: its recorded fields on ``base`` (default: the built-in defaults).
 
-    ``base`` gives what a plan does not record (the config's crews, source file and
-    OpenStreetMap road list).
+    ``base`` gives what a plan does not record (the config's crews and source file).
     """
     base = base or Profile()
-    return dataclasses.replace(base, **plan.settings.profile.to_dict())
+    return plan.settings.profile.with_recorded(base)
 
 
 @dataclass(frozen=True)

@@ -25,6 +25,7 @@ import json
 
 from crewcut.plans.model import CrewPlan, Plan
 from crewcut.plans.view import PlanView, view
+from crewcut.reports.leftout import left_out_line
 from crewcut.reports.textsafety import csv_cell, markdown_text
 
 # (key, header with unit, justify) in display order.
@@ -122,6 +123,8 @@ def workload_summary(plan: Plan | PlanView) -> dict:
         "lower_bound_min": lb,
         "gap": None if gap is None else float(gap),
         "over_limit": [{"crew": r["crew"], "over_min": r["over_limit_min"]} for r in rows if r["over_limit_min"] > 0],
+        "left_out_segments": len(pv.plan.left_out or ()),
+        "left_out_km": sum(x.length_m for x in pv.plan.left_out or ()) / 1000.0,
     }
 
 
@@ -146,6 +149,13 @@ def summary_lines(plan: Plan | PlanView) -> list[str]:
                      f"gap {100 * s['gap']:.1f} %")
     for o in s["over_limit"]:
         lines.append(f"over the shift limit: {o['crew']} by {o['over_min']:.0f} min")
+    pv = view(plan)
+    area = pv.plan.settings.options.area
+    if area is not None:
+        lines.append(f"service area: {area.source or 'recorded in the plan'} (streets outside are driven, never served)")
+    left = left_out_line(pv.plan.left_out)
+    if left:
+        lines.append(left + "; listed in the plan file and the report")
     return lines
 
 

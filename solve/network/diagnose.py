@@ -19,9 +19,12 @@ Method
 Severity
     A street that needs service and cannot be reached or left is an error (the
     network is not plannable); the same for a street that needs no service is a
-    warning (routes simply never use it). A closed street that would need
-    service is a warning (it is left out). Repairs made while reading are
-    warnings.
+    warning (routes simply never use it); under the policy ``leave_out``
+    (:mod:`crewcut.solve.network.scope`) the first is a warning too, saying the
+    street is left out. A closed street that would need service is a warning (it
+    is left out). Repairs made while reading are warnings. The report lists the
+    streets left out (:attr:`CheckReport.left_out`) and tells whether the
+    network would be plannable once they are (:attr:`CheckReport.plannable_once_left_out`).
 """
 from __future__ import annotations
 
@@ -33,6 +36,7 @@ from scipy.sparse.csgraph import breadth_first_order, connected_components
 
 from crewcut.solve.costs import required_passes
 from crewcut.solve.network.model import SERVICE_NONE, Finding, Network
+from crewcut.solve.network.scope import LeftOutStreet, check_unservable, unservable_streets
 from crewcut.solve.profile import Profile
 
 
@@ -67,6 +71,10 @@ class CheckReport:
     not_reachable: int  # segments that cannot be reached (from the depot / the main part)
     cannot_return: int  # segments that can be reached but never left towards it
     findings: tuple[Finding, ...] = field(default_factory=tuple)
+    # streets that need service but no closed route can serve, and closed ones (crewcut.solve.network.scope)
+    left_out: tuple[LeftOutStreet, ...] = ()
+    unservable: str = "refuse"
+    trap_features: frozenset[str] = frozenset()  # features whose only errors are that no closed route serves them
 
     @property
     def errors(self) -> tuple[Finding, ...]:
@@ -79,6 +87,16 @@ class CheckReport:
     @property
     def plannable(self) -> bool:
         return not self.errors
+
+    @property
+    def trapped(self) -> tuple[LeftOutStreet, ...]:
+        """The left-out streets that are not closed: what the policy decides about."""
+        return tuple(s for s in self.left_out if s.reason != "closed")
+
+    @property
+    def plannable_once_left_out(self) -> bool:
+        """Not plannable as it is, but it would be with the streets no closed route can serve left out."""
+        return bool(self.errors) and bool(self.trapped) and all(f.feature in self.trap_features for f in self.errors)
 
 
 def _reach(n: int, tail: np.ndarray, head: np.ndarray, sources: np.ndarray) -> np.ndarray:
@@ -93,7 +111,8 @@ def _reach(n: int, tail: np.ndarray, head: np.ndarray, sources: np.ndarray) -> n
     return mask[:n]
 
 
-def check_network(net: Network, profile: Profile, depot: int | None = None) -> CheckReport:
+def check_network(net: Network, profile: Profile, depot: int | None = None,
+                  unservable: str | None = None) -> CheckReport:
     """Summarise ``net`` under ``profile`` and find what keeps it from being planned.
 
     Parameters
@@ -102,7 +121,11 @@ def check_network(net: Network, profile: Profile, depot: int | None = None) -> C
         The network and the work profile (service rules, one-way handling).
     depot:
         A node id, or None to judge each connected piece on its own.
+    unservable:
+        ``"refuse"``: a street that needs service and lies on no closed route is an
+        error; ``"leave_out"``: a warning saying it is left out (default: the profile's).
     """
+    unservable = check_unservable(profile.unservable if unservable is None else unservable)
     n, m = net.n_nodes, net.n_segments
     passes = required_passes(net, profile).total
     length = net.seg_length
@@ -147,7 +170,12 @@ def check_network(net: Network, profile: Profile, depot: int | None = None) -> C
         findings.append(Finding(
             "error", "network", "nothing to serve: every street is closed or needs no service under this profile",
             "open the streets to be served, or check the profile's default_service and the data's service tags"))
-    findings += _reach_findings(net, passes, bad_reach, bad_return, place, weak, depot, oneway)
+    reach = _reach_findings(net, passes, bad_reach, bad_return, place, weak, depot, oneway)
+    trap_features = frozenset(f.feature for f in reach if f.severity == "error")
+    if unservable == "leave_out":
+        reach = [Finding("warning", f.feature, f.message + "; left out of every route", f.hint)
+                 if f.severity == "error" else f for f in reach]
+    findings += reach
     closed_req = net.seg_closed & (net.seg_service != SERVICE_NONE)
     for src in _sources(net, np.flatnonzero(closed_req)):
         findings.append(Finding("warning", src, "closed street needs service; it is left out of every route",
@@ -168,7 +196,9 @@ def check_network(net: Network, profile: Profile, depot: int | None = None) -> C
         required_km=float((length * passes).sum()) / 1000, closed_segments=int(net.seg_closed.sum()),
         by_class=tuple(rows), components=components, odd_nodes=int(((deg % 2) == 1).sum()),
         dead_ends=int((deg == 1).sum()), depot=depot, not_reachable=int(bad_reach.sum()),
-        cannot_return=int(bad_return.sum()), findings=tuple(findings))
+        cannot_return=int(bad_return.sum()), findings=tuple(findings),
+        left_out=unservable_streets(net, profile, None if depot is None else [depot]), unservable=unservable,
+        trap_features=trap_features)
 
 
 def _main_parts(n, tail, head, seg, length, weak) -> np.ndarray:

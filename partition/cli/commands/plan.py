@@ -67,4 +67,8 @@ def _print(ui, plan, path: Path, seconds: float) -> None:
     if s.over_limit:
         ui.out.print(f"an estimated {s.crews_needed_estimate} crews would fit their shift limits "
                      f"(total shift minutes over the limits; not a plan)")
+    if plan.left_out:
+        from crewcut.cli.tables import left_out_table
+
+        ui.out.print(left_out_table(plan.left_out))
     ui.out.print(f"plan written to {path} ({seconds:.1f} s)")
