@@ -103,7 +103,7 @@ def augmented_traversals(net: Network, profile: Profile, depot: int, segments=No
     Parameters are those of :func:`plan_route`, assumed already checked.
     """
     tasks = build_tasks(net, profile, None if segments is None else [int(s) for s in segments])
-    arcs = build_deadhead(net, profile)
+    arcs = build_deadhead(net, profile, depot)
     n_tasks = len(tasks)
     if n_tasks == 0:
         return None

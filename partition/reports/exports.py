@@ -29,6 +29,8 @@ import csv
 import io
 import json
 
+from crewcut.solve.network.scope import REASONS
+
 from crewcut.plans.model import Plan, route_id
 from crewcut.plans.view import PlanView, view
 from crewcut.reports.textsafety import SafeText, XmlEscaper, csv_cell, xml_note
@@ -68,6 +70,11 @@ def to_geojson(pv: Plan | PlanView) -> str:
             geom = {"type": "LineString", "coordinates": line} if len(line) >= 2 else None
             feats.append({"type": "Feature", "geometry": geom, "properties": {
                 "kind": "route", "crew": c.id, "route": route_id(i), **_totals(r)}})
+    for x in pv.plan.left_out or ():  # never silent: each street no crew serves, with its reason
+        coords = [_pos(p) for p in pv.seg_coords(x.segment)]
+        feats.append({"type": "Feature", "geometry": {"type": "LineString", "coordinates": coords}, "properties": {
+            "kind": "left_out", "segment": x.segment, "source_id": x.source_id, "name": x.name,
+            "length_m": round(float(x.length_m), 3), "reason": x.reason, "why": REASONS.get(x.reason, x.reason)}})
     doc = {"type": "FeatureCollection", "features": feats}
     return json.dumps(doc, ensure_ascii=False, separators=(",", ":")) + "\n"
 

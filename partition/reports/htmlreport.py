@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from crewcut.plans.model import Plan
 from crewcut.plans.view import PlanView, view
+from crewcut.reports.leftout import left_out_rows
 from crewcut.reports.sheets import crew_sheets, html_document, to_html_section
 from crewcut.reports.textsafety import html_text
 from crewcut.reports.svgmap import crew_colours, route_svg, territory_svg
@@ -62,6 +63,20 @@ def _load_table(pv: PlanView) -> str:
             f'<ul class="notes">{notes}</ul>')
 
 
+def _left_out_table(pv: PlanView) -> str:
+    e = html_text
+    rows = left_out_rows(pv.plan.left_out)
+    body = "".join(f"<tr><td>{e(r['source_id'])}</td><td>{e(r['name'])}</td><td class=\"n\">{r['segments']}</td>"
+                   f"<td class=\"n\">{r['length_m']:.1f}</td><td>{e(r['why'])}</td></tr>" for r in rows)
+    total = (f'<tr class="total"><td>total</td><td></td><td class="n">{sum(r["segments"] for r in rows)}</td>'
+             f'<td class="n">{sum(r["length_m"] for r in rows):.1f}</td><td></td></tr>')
+    return ("<h2>Left out: streets that need service and no crew serves</h2>"
+            "<p>No closed route from a depot can serve these streets (or they are closed); check them on site "
+            "and in the street data before the work starts.</p>"
+            '<table class="load"><thead><tr><th>feature</th><th>name</th><th>segments (count)</th>'
+            f"<th>length (m)</th><th>reason</th></tr></thead><tbody>{body}{total}</tbody></table>")
+
+
 def report_html(pv: Plan | PlanView) -> str:
     """The whole report as one HTML document (a string; same plan, same bytes)."""
     pv = view(pv)
@@ -76,6 +91,8 @@ def report_html(pv: Plan | PlanView) -> str:
                                                  for i, c in enumerate(pv.crews)) + "</nav>")
     parts.append("<h2>Workload per crew</h2>")
     parts.append(_load_table(pv))
+    if pv.plan.left_out:
+        parts.append(_left_out_table(pv))
     if pv.has_geometry:
         parts.append(f"<figure>{territory_svg(pv, standalone=False)}</figure>")
     else:

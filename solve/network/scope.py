@@ -292,13 +292,18 @@ def scope_network(net: Network, profile: Profile, depots, *, area=None,
     trapped = [s for s in found if s.reason != "closed"]
     if trapped and unservable == "refuse":
         raise InputError(
-            f"{len(trapped)} street segment(s) that need service lie on no closed route from a depot: "
-            f"{describe_left_out(trapped)}; the streets are plannable once these are left out",
-            "give `unservable` = \"leave_out\" to plan without them (each is listed with its reason), fix the "
+            f"streets that need service lie on no closed route from a depot: {describe_left_out(trapped)}; "
+            "the streets are plannable once these are left out",
+            "give `unservable` leave_out to plan without them (each is listed with its reason), fix the "
             "one-way directions or add the missing streets, or place a depot where it can reach them",
             param="unservable")
     if trapped:
         net = without_service(net, np.array([s.segment for s in trapped], np.int64))
+        if not (required_passes(net, profile).total > 0).any():
+            raise InputError(f"no closed route from a depot can serve any street that needs service: "
+                             f"{describe_left_out(trapped)}",
+                             "place the depot on the streets to be served (check its position), or fix the "
+                             "one-way directions around it", param="depot_lonlat")
     return ServiceScope(net, found, outside, unservable, area)
 
 

@@ -91,9 +91,21 @@ def build_tasks(net: Network, profile: Profile, segments=None) -> TaskSet:
                    metres=net.seg_length[seg].astype(np.float64))
 
 
-def build_deadhead(net: Network, profile: Profile) -> DeadheadArcs:
-    """Every legal direction of every usable segment, at deadhead minutes."""
+def build_deadhead(net: Network, profile: Profile, depot: int | None = None) -> DeadheadArcs:
+    """Every legal direction of every usable segment, at deadhead minutes.
+
+    With a ``depot``, only the directions that lie on some closed walk through it
+    (:func:`crewcut.solve.network.scope.servable_arcs`): a closed route can use no
+    other, and an augmentation that did (a connector through a one-way trap) could
+    never be balanced.
+    """
     tail, head, seg, fwd = net.arcs(profile.ignore_oneway)
+    if depot is not None:
+        from crewcut.solve.network.scope import servable_arcs
+
+        reach, back = servable_arcs(net, profile, np.array([int(depot)], np.int64))
+        keep = reach & back
+        tail, head, seg, fwd = tail[keep], head[keep], seg[keep], fwd[keep]
     dh = deadhead_minutes(net, profile)
     return DeadheadArcs(tail=tail.astype(np.int64), head=head.astype(np.int64), seg=seg.astype(np.int64),
                         forward=fwd.astype(bool), minutes=dh[seg].astype(np.float64),

@@ -122,12 +122,13 @@ def _check_valid(area: ServiceArea, source: str) -> None:
     for i, poly in enumerate(area.polygons):
         shape = shapely.Polygon(poly[0], poly[1:])
         where = source if len(area.polygons) == 1 else f"{source}: polygon {i + 1}"
-        if shape.is_empty or shape.area == 0.0:
-            raise InputError(f"{where}: the polygon has no area (all its corners lie on one line)",
-                             "draw the district's outline with at least three corners that are not in line",
-                             param="area")
-        if not shape.is_valid:
+        degenerate = shape.is_empty or shapely.area(shapely.make_valid(shape)) == 0.0
+        if not shape.is_valid and not degenerate:
             why = shapely.is_valid_reason(shape)  # e.g. "Self-intersection[24.94 60.17]"
             raise InputError(f"{where}: the polygon is not valid: {why}",
                              "redraw the outline so that it does not cross itself (a GIS 'make valid' or "
                              "'fix geometries' step does it); holes must lie inside their polygon", param="area")
+        if degenerate:
+            raise InputError(f"{where}: the polygon has no area (all its corners lie on one line)",
+                             "draw the district's outline with at least three corners that are not in line",
+                             param="area")

@@ -7,7 +7,7 @@ from crewcut.cli.commands.common import out_file, plan_inputs, styled, write_or_
 from crewcut.plans.view import load
 
 NAME = "export"
-HELP = "export a plan as GeoJSON (territories and routes), GPX 1.1 (one track per crew, depots as waypoints) or CSV (per segment)"
+HELP = "export a plan as GeoJSON (territories, routes and the streets left out), GPX 1.1 (one track per crew, depots as waypoints) or CSV (per segment)"
 
 
 def add_arguments(p) -> None:

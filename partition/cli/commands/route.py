@@ -15,7 +15,8 @@ from crewcut.solve.route import plan_route
 
 from crewcut.plans.model import CrewPlan, RouteSummary, RunOptions
 from crewcut.plans.planfile import build_plan, write_plan
-from crewcut.cli.commands.common import add_network_arguments, depot_from_args, line, measure_table, out_folder, styled
+from crewcut.cli.commands.common import (add_network_arguments, add_scope_arguments, depot_from_args, line,
+                                         measure_table, out_folder, scope_area, styled)
 
 NAME = "route"
 HELP = "plan one crew's route over the whole network and write it as a plan file"
@@ -32,6 +33,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="seed for every random choice (default 0); same input and seed, same plan")
     parser.add_argument("--plain", action="store_true",
                         help="plain Euler circuit instead of the turn-aware one (for comparison)")
+    add_scope_arguments(parser)
 
 
 def _depot(args, net, profile) -> tuple[int, str, str | None, float | None]:
@@ -49,9 +51,14 @@ def run(args, ui) -> int:
     if args.depot:  # a malformed --depot is reported before any reading
         from crewcut.cli.args import parse_lonlat
         parse_lonlat(args.depot)
-    out_dir = out_folder(args.out, inputs=[args.network, args.config])
+    out_dir = out_folder(args.out, inputs=[args.network, args.config, args.area, profile.service_area])
+    area = scope_area(args)
     net = read_network(args.network, profile)
     depot, depot_text, crew_id, shift = _depot(args, net, profile)
+    from crewcut.solve.network.scope import run_scope
+
+    scope = run_scope(net, profile, [depot], area, args.unservable)
+    net = scope.network
     with ui.progress() as bar:
         task = bar.add_task("planning the route", total=None)
         route = plan_route(net, profile, depot, turn_aware=not args.plain, seed=args.seed)
@@ -64,9 +71,14 @@ def run(args, ui) -> int:
                            gap=route.gap, exact=route.exact, method=route.method, u_turns=route.totals.u_turns,
                            across_turns=route.totals.across_turns, plain_u_turns=st.get("plain_u_turns"),
                            plain_across_turns=st.get("plain_across_turns"))
-    plan = build_plan(net, profile, [crew], source=str(args.network), summary=summary,
-                   options=RunOptions(command="route", depot_node=depot, seed=args.seed, turn_aware=not args.plain))
+    plan = build_plan(net, profile, [crew], source=str(args.network), summary=summary, left_out=scope.left_out,
+                      options=RunOptions(command="route", depot_node=depot, seed=args.seed, turn_aware=not args.plain,
+                                         unservable=scope.unservable, area=scope.area))
     path = write_plan(plan, out_dir / "plan.json")
+    if scope.left_out:
+        from crewcut.cli.tables import left_out_table
+
+        ui.out.print(left_out_table(scope.left_out))
     _print(ui, args.network, profile.name, depot_text, route, path)
     return 0
 

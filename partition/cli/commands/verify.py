@@ -15,6 +15,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="the work profile the plan must have been made with: its settings, crews' depots "
                              "and shift limits are the truth (without it, the plan's own recorded settings are "
                              "taken on trust)")
+    parser.add_argument("--area", metavar="FILE",
+                        help="the service area the plan must have been made for (default: the config's "
+                             "network.service_area, else the area the plan records)")
 
 
 def run(args, ui) -> int:
@@ -28,7 +31,9 @@ def run(args, ui) -> int:
     plan = read_plan(args.plan)
     config = load_profile(args.config) if args.config else None
     net = read_network(args.network, config if config is not None else profile_of_plan(plan))
-    verdict = verify_plan(plan, net, config, first_only=True)
+    from crewcut.cli.commands.common import scope_area
+
+    verdict = verify_plan(plan, net, config, first_only=True, area=scope_area(args))
     if verdict.profile_from == PROFILE_FROM_CONFIG:
         against = f"checked against {args.config}"
     else:
