@@ -72,7 +72,7 @@ def read_network(path: str | Path, profile: Profile | None = None) -> Network:
 def plan(network: Network, crews: Sequence[Crew] | None = None, profile: Profile | None = None, *,
          k: int | None = None, depot: tuple[float, float] | None = None, seed: int = 0,
          workers: int | None = None, time_limit_s: float | None = None,
-         progress: ProgressFn | None = None, source: str = "") -> Plan:
+         progress: ProgressFn | None = None, source: str = "", area=None, unservable: str | None = None) -> Plan:
     """Balanced connected territories, one per crew, each with a closed route from its depot.
 
     Parameters
@@ -90,6 +90,10 @@ def plan(network: Network, crews: Sequence[Crew] | None = None, profile: Profile
         As for :func:`crewcut.fleet.planner.plan_fleet`; the same input and seed give the same plan.
     source:
         The network file's name, recorded in the plan.
+    area, unservable:
+        The service area (:func:`crewcut.solve.readers.area.read_area`; default: the
+        profile's ``service_area``) and what to do with streets no closed route from a
+        depot can serve: ``"leave_out"`` (listed in ``plan.left_out``) or ``"refuse"``.
 
     The method (cluster first, route second, boundary balancing) and the lower bound
     are described in :mod:`crewcut.fleet.planner`; the plan states its gap.
@@ -104,7 +108,7 @@ def plan(network: Network, crews: Sequence[Crew] | None = None, profile: Profile
         profile = dataclasses.replace(profile, crews=tuple(crews))
     chosen = resolve_crews(network, profile, k=k, depot_lonlat=depot)
     return plan_fleet(network, profile, chosen, seed=seed, workers=workers, time_limit_s=time_limit_s,
-                      progress=progress, source=source)
+                      progress=progress, source=source, area=area, unservable=unservable)
 
 
 def replan(parent: Plan, changes: Changes, network: Network, *, profile: Profile | None = None,

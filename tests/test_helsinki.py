@@ -119,3 +119,43 @@ def test_check_command_on_helsinki(helsinki_pbf, helsinki, capsys, monkeypatch):
     rc = main(["check", str(helsinki_pbf)])
     out = " ".join(capsys.readouterr().out.split())
     assert rc == 0 and "will be left out" in out
+
+
+# --------------------------------------------- planning straight from the extract (issue: real data)
+CENTRE = "24.9384,60.1699"  # Helsinki city centre, near the railway station (lon, lat)
+
+
+@pytest.mark.parametrize("config,crews", [("curb-sweeping", 4), ("ploughing", 3)])
+def test_plans_straight_from_the_extract(helsinki_pbf, tmp_path, capsys, monkeypatch, config, crews):
+    """One command plans the cut extract; the left-out list is what networkx finds outside the depot's
+    strongly connected component (reference library), and verify accepts the plan."""
+    import json
+
+    import networkx as nx
+
+    from helpers.checks import check_plan_independently
+    from crewcut.solve.costs import required_passes
+    from crewcut.solve.profile import builtin_profile_path
+
+    monkeypatch.setenv("COLUMNS", "300")
+    cfg = builtin_profile_path(config)
+    out = tmp_path / config
+    rc = main(["plan", str(helsinki_pbf), "--config", str(cfg), "--crews", str(crews), "--depot", CENTRE,
+               "--workers", "1", "--out", str(out)])
+    captured = capsys.readouterr()
+    assert rc == 0, captured.err
+    plan = json.loads((out / "plan.json").read_text(encoding="utf-8"))
+    prof = builtin_profile(config)
+    net = read_network(helsinki_pbf, prof)
+    depot = plan["crews"][0]["depot_node"]
+    g = net.to_networkx()
+    comp = next(c for c in nx.strongly_connected_components(g) if depot in c)
+    need = required_passes(net, prof).total > 0
+    outside = {s for s in range(net.n_segments) if need[s] and not (net.seg_u[s] in comp and net.seg_v[s] in comp)}
+    assert outside and {x["segment"] for x in plan["left_out"]} == outside
+    assert "Left out" in captured.out
+    check_plan_independently(plan)
+    assert main(["verify", str(out / "plan.json"), str(helsinki_pbf), "--config", str(cfg)]) == 0
+    assert main(["verify", str(out / "plan.json"), str(helsinki_pbf)]) == 0  # the plan's own settings suffice
+    print(f"\nHelsinki, {config}, {crews} crews: {len(outside)} segments "
+          f"({sum(net.seg_length[s] for s in outside) / 1000:.2f} km) left out")
