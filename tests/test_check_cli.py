@@ -16,7 +16,7 @@ import networkx as nx
 import numpy as np
 import pytest
 
-from helpers.geojson import GEOD, collection, feature, grid, offset, write
+from helpers.geojson import GEOD, collection, feature, grid, offset, one_way_grid, write
 from crewcut.cli.main import main
 from crewcut.solve.network.diagnose import check_network
 from crewcut.solve.profile import Profile
@@ -263,15 +263,7 @@ def test_exit_status_through_python_m_partition(tmp_path):
 
 # -------------------------------------------------- analysis against networkx
 def _random_mixed_network(seed: int) -> dict:
-    rng = np.random.default_rng(seed)
-    doc = grid(5, 5)
-    for f in doc["features"]:
-        r = rng.random()
-        if r < 0.35:
-            f["properties"]["oneway"] = "yes"
-        elif r < 0.5:
-            f["properties"]["oneway"] = "-1"
-    return doc
+    return one_way_grid(seed, 5, 5, 0.35, 0.15)
 
 
 @pytest.mark.parametrize("seed", range(6))

@@ -19,7 +19,7 @@ import shapely
 from hypothesis import HealthCheck, given, settings, strategies as st
 
 from helpers.checks import check_plan_independently
-from helpers.geojson import GEOD, grid, offset, write
+from helpers.geojson import GEOD, grid, offset, one_way_grid, write
 from crewcut.cli.main import main
 from crewcut.solve.costs import required_passes
 from crewcut.solve.network.scope import scope_network, unservable_streets
@@ -132,15 +132,7 @@ def test_area_with_no_street_inside(tmp_path, capsys):
 
 # ------------------------------------------------------------ unservable streets
 def _one_way_town(seed: int) -> dict:
-    rng = np.random.default_rng(seed)
-    doc = grid(5, 4)
-    for f in doc["features"]:
-        r = rng.random()
-        if r < 0.3:
-            f["properties"]["oneway"] = "yes"
-        elif r < 0.45:
-            f["properties"]["oneway"] = "-1"
-    return doc
+    return one_way_grid(seed, 5, 4, 0.3, 0.15)
 
 
 def _depot_scc_segments(net, depot: int) -> set[int]:

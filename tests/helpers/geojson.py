@@ -44,6 +44,19 @@ def grid(nx: int = 3, ny: int = 3, spacing: float = 100.0, **props) -> dict:
     return collection(feats)
 
 
+def one_way_grid(seed: int, nx: int, ny: int, forward: float, against: float) -> dict:
+    """:func:`grid` with a random share of its streets one-way: ``forward`` drawn way, ``against`` (-1) the other."""
+    rng = np.random.default_rng(seed)
+    doc = grid(nx, ny)
+    for f in doc["features"]:
+        r = rng.random()
+        if r < forward:
+            f["properties"]["oneway"] = "yes"
+        elif r < forward + against:
+            f["properties"]["oneway"] = "-1"
+    return doc
+
+
 def write(path: Path, doc) -> Path:
     path.write_text(doc if isinstance(doc, str) else json.dumps(doc), encoding="utf-8")
     return path
