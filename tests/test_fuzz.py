@@ -130,6 +130,23 @@ def test_malformed_geojson(base, seed, value):
 
 
 @FUZZ
+@given(seed=st.integers(0, 2**32 - 1), value=json_values)
+def test_malformed_service_area(base, seed, value):
+    """A damaged --area file: a plan or a message and exit 2, never a crash, nothing half-written."""
+    with _fresh() as tmp_path:
+        lon, lat = -30.5, 45.2
+        ring = [[lon - 0.01, lat - 0.01], [lon + 0.01, lat - 0.01], [lon + 0.01, lat + 0.01],
+                [lon - 0.01, lat + 0.01], [lon - 0.01, lat - 0.01]]
+        doc = {"type": "FeatureCollection", "features": [
+            {"type": "Feature", "properties": {}, "geometry": {"type": "Polygon", "coordinates": [ring]}}]}
+        doc = _mutate(doc, random.Random(seed), value)
+        path = tmp_path / "district.geojson"
+        path.write_text(json.dumps(doc, ensure_ascii=False, allow_nan=True), encoding="utf-8", errors="surrogatepass")
+        expect_clean(["plan", str(base["town"]), "--area", str(path), "--crews", "2", "--depot", "-30.5,45.2",
+                      "--workers", "1", "--out", str(tmp_path / "o")], [path, base["town"]], tmp_path)
+
+
+@FUZZ
 @given(rows=st.lists(st.lists(hostile | st.sampled_from(["1", "-1", "1e309", "nan", "yes", '"', 'a"b']),
                               max_size=6), max_size=6),
        header=st.sampled_from(["from,to,length_m", "from,to,length_m,oneway,name,speed_kmh", "from,to", ""]))
