@@ -11,7 +11,13 @@ one_pass       1 pass, either direction         1 pass, legal direction
 both_sides     1 pass each direction (curbs,    2 passes, legal direction
                each with traffic)
 each_direction 1 pass each direction (lanes)    1 pass, legal direction
+right_curb     1 pass, the direction that puts  1 pass, legal direction
+left_curb      that curb on the working side
 ============== ================================ ==============================
+
+The working side is the curb side of the direction of travel: the right in
+right-hand traffic, so there ``right_curb`` is driven ``u -> v`` and ``left_curb``
+``v -> u`` (the other way round in left-hand traffic).
 
 When the profile ignores one-way streets (walkers) every street counts as
 two-way, and ``both_sides`` gives 2 passes in either direction. Closed segments
@@ -26,7 +32,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from crewcut.solve.network.model import (SERVICE_BOTH_SIDES, SERVICE_EACH_DIRECTION, SERVICE_ONE_PASS, Network)
+from crewcut.solve.network.model import (SERVICE_BOTH_SIDES, SERVICE_EACH_DIRECTION, SERVICE_LEFT_CURB,
+                                         SERVICE_ONE_PASS, SERVICE_RIGHT_CURB, Network)
 from crewcut.solve.profile import Profile
 
 
@@ -65,6 +72,13 @@ def required_passes(net: Network, profile: Profile) -> Passes:
     each = (svc == SERVICE_EACH_DIRECTION) & open_
     fwd[each] = 1
     bwd[each & ~oneway] = 1
+    curb = ((svc == SERVICE_RIGHT_CURB) | (svc == SERVICE_LEFT_CURB)) & open_
+    if profile.ignore_oneway:
+        eit[curb] = 1
+    else:
+        with_uv = (svc == SERVICE_RIGHT_CURB) == (profile.traffic != "left")
+        fwd[curb & (oneway | with_uv)] = 1
+        bwd[curb & ~oneway & ~with_uv] = 1
     return Passes(fwd, bwd, eit)
 
 

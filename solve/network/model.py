@@ -25,12 +25,19 @@ SERVICE_NONE = 0  # drive-through only, no work on it
 SERVICE_ONE_PASS = 1  # one pass; either direction on a two-way street
 SERVICE_BOTH_SIDES = 2  # one pass per curb, each with traffic
 SERVICE_EACH_DIRECTION = 3  # one pass per direction of travel (ploughing lanes)
+# One curb only, left or right as seen along seg_u -> seg_v: one pass in the direction that
+# keeps that curb on the working side (see crewcut.solve.costs); a street whose curbs are posted
+# for different times is stored as two parallel segments, one per curb.
+SERVICE_RIGHT_CURB = 4
+SERVICE_LEFT_CURB = 5
 
 SERVICE_NAMES = {
     "none": SERVICE_NONE,
     "one_pass": SERVICE_ONE_PASS,
     "both_sides": SERVICE_BOTH_SIDES,
     "each_direction": SERVICE_EACH_DIRECTION,
+    "right_curb": SERVICE_RIGHT_CURB,
+    "left_curb": SERVICE_LEFT_CURB,
 }
 SERVICE_LABELS = {v: k for k, v in SERVICE_NAMES.items()}
 
@@ -99,6 +106,9 @@ class Network:
     # leaving along depart_seg at their shared node; *_fwd is 1 for seg_u -> seg_v.
     turn_bans: np.ndarray = field(default_factory=lambda: np.zeros((0, 4), np.int64))
     turn_ban_source: tuple[str, ...] = ()  # the restriction each row comes from (e.g. "r123")
+    # Posted sweeping times (crewcut.solve.calendar.postings.Posting or None) per segment; empty: none
+    # posted anywhere. A segment's posting holds for every pass it needs.
+    seg_posting: tuple = ()
 
     # ----------------------------------------------------------------- sizes
     @property
@@ -108,6 +118,10 @@ class Network:
     @property
     def n_segments(self) -> int:
         return int(self.seg_u.shape[0])
+
+    def posting(self, s: int):
+        """The posted sweeping time of segment ``s`` (a Posting), or None."""
+        return self.seg_posting[s] if self.seg_posting else None
 
     # ------------------------------------------------------------ adjacency
     def arcs(self, ignore_oneway: bool = False) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
@@ -171,6 +185,9 @@ class Network:
         h.update("\x1f".join(self.seg_source).encode())
         if self.turn_bans.size:  # networks without bans keep the fingerprint they always had
             h.update(np.ascontiguousarray(self.turn_bans, dtype="<i8").tobytes())
+        if any(p is not None for p in self.seg_posting):  # likewise for networks without postings
+            h.update("\x1f".join("" if p is None else f"{p.day} {p.open_min} {p.close_min}"
+                                  for p in self.seg_posting).encode())
         return h.hexdigest()
 
     def to_networkx(self):
