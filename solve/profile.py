@@ -12,6 +12,7 @@ from dataclasses import asdict, dataclass, field, fields, replace
 from importlib import resources
 from pathlib import Path
 
+from crewcut.solve.calendar.cycle import Cycle, check_days, make_cycle
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_NAMES
 from crewcut.solve.vehicle import Vehicle, vehicle_from_dict
@@ -32,6 +33,7 @@ _SCHEMA: dict[str, dict[str, type | tuple]] = {
     "turn_penalty_s": {k: (int, float) for k in TURN_KINDS},
     "network": {"snap_tolerance_m": (int, float), "split_at_touch": bool, "unservable": str, "service_area": str},
     "osm": {"highways": list, "keep_service_kinds": list},
+    "cycle": {"days": list, "shift_start": str},
 }
 _CLASS_TABLES = {
     "service_speed_kmh": (int, float),
@@ -47,7 +49,7 @@ TURN_PENALTY_MAX_S = 600.0
 SNAP_TOLERANCE_MAX_M = 50.0
 DEPOT_SNAP_MAX_M = 100_000.0
 PRIORITY_RANGE = (0, 100)
-_CREW_KEYS = {"id": str, "depot": list, "depot_node": int, "shift_limit_min": (int, float)}
+_CREW_KEYS = {"id": str, "depot": list, "depot_node": int, "shift_limit_min": (int, float), "days_off": list}
 # A crew id names files, map labels and route sheets and is read on a screen in the cab:
 # short and printable (common practice, no source; "printable" as Python's str.isprintable,
 # which follows the Unicode categories: no control, format, surrogate, unassigned or
@@ -89,6 +91,7 @@ class Crew:
     shift_limit_min: float
     depot_lonlat: tuple[float, float] | None = None
     depot_node: int | None = None
+    days_off: tuple[str, ...] = ()  # cycle days the crew does not work (cycle plans only)
 
 
 @dataclass(frozen=True)
@@ -119,6 +122,7 @@ class Profile:
     # streets no closed route from a depot can serve: "leave_out" (listed) or "refuse"
     unservable: str = "leave_out"
     service_area: str | None = None  # a GeoJSON polygon file (a config's relative path is taken from its folder)
+    cycle: Cycle | None = None  # the sweeping cycle ([cycle]); None: one shift per crew
     crews: tuple[Crew, ...] = ()
     source: str = "<built-in defaults>"
 
@@ -299,6 +303,11 @@ def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
         if "default" not in out:
             out["default"] = getattr(Profile(), table)["default"]
         kw[table] = out
+    cyc = data.get("cycle")
+    if cyc is not None:
+        if "days" not in cyc:
+            raise InputError(f"{source}: [cycle] has no 'days'", "e.g. days = [\"mon\", \"tue\", \"wed\", \"thu\", \"fri\"]")
+        kw["cycle"] = make_cycle(cyc["days"], cyc.get("shift_start"), f"{source}: [cycle]")
     crews = data.get("crews", [])
     if not isinstance(crews, list):
         raise InputError(f"{source}: 'crews' must be an array of tables ([[crews]])")
@@ -342,7 +351,15 @@ def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
                              "keep one: depot = [lon, lat] (snapped to the nearest street) or depot_node = N")
         if lonlat is None and node is None:
             raise InputError(f"{where} ('{cid}') has no depot", "add depot = [lon, lat] or depot_node = N")
-        built.append(Crew(id=cid, shift_limit_min=limit, depot_lonlat=lonlat, depot_node=node))
+        off = check_days(c["days_off"], f"{where}: days_off") if c.get("days_off") else ()
+        if off and kw.get("cycle") is None:
+            raise InputError(f"{where} ('{cid}') has days_off but the config has no [cycle]",
+                             "add [cycle] days = [...] to the config, or remove days_off")
+        bad = [d for d in off if kw.get("cycle") is not None and d not in kw["cycle"].days]
+        if bad:
+            raise InputError(f"{where} ('{cid}'): days_off {', '.join(bad)} not in the cycle "
+                             f"({', '.join(kw['cycle'].days)})", "name days of the cycle")
+        built.append(Crew(id=cid, shift_limit_min=limit, depot_lonlat=lonlat, depot_node=node, days_off=off))
     kw["crews"] = tuple(built)
     return Profile(**kw)
 

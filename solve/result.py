@@ -22,6 +22,7 @@ class Traversal:
     minutes: float  # driving or service minutes, without the turn
     turn: str = "start"  # the turn made onto this segment, one of TURNS
     turn_minutes: float = 0.0
+    wait_minutes: float = 0.0  # waiting before this drive (a posted window not yet open)
 
 
 @dataclass(frozen=True)
@@ -53,6 +54,7 @@ class RouteTotals:
     total_min: float
     u_turns: int
     across_turns: int
+    wait_min: float = 0.0  # waiting for posted windows to open; part of total_min
 
     @staticmethod
     def of(traversals: tuple[Traversal, ...] | list[Traversal]) -> "RouteTotals":
@@ -61,11 +63,12 @@ class RouteTotals:
         s_min = sum(t.minutes for t in traversals if t.service)
         d_min = sum(t.minutes for t in traversals if not t.service)
         t_min = sum(t.turn_minutes for t in traversals)
+        w_min = sum(t.wait_minutes for t in traversals)
         return RouteTotals(
             service_km=s_km, service_min=s_min, deadhead_km=d_km, deadhead_min=d_min,
-            turn_min=t_min, total_min=s_min + d_min + t_min,
+            turn_min=t_min, total_min=s_min + d_min + t_min + w_min,
             u_turns=sum(t.turn == "u_turn" for t in traversals),
-            across_turns=sum(t.turn == "across_traffic" for t in traversals))
+            across_turns=sum(t.turn == "across_traffic" for t in traversals), wait_min=w_min)
 
 
 @dataclass(frozen=True)
@@ -75,7 +78,9 @@ class Route:
     ``lower_bound_min``: a proven lower bound on the total minutes of any route
     serving the same passes from the same depot (service, deadhead and the
     turns every served arrival forces, see :func:`crewcut.solve.postman.bounds.turn_lower_bound`);
-    ``gap = total_min / lower_bound_min - 1``.
+    ``gap = total_min / lower_bound_min - 1``. In a cycle plan ``day`` is the cycle day the
+    route is driven on and ``start_min`` its clock start (minutes after midnight); both are
+    None for a route without a calendar.
     """
 
     depot: int
@@ -85,6 +90,8 @@ class Route:
     exact: bool
     lower_bound_min: float
     stats: dict = field(default_factory=dict)
+    day: str | None = None
+    start_min: float | None = None
 
     @property
     def gap(self) -> float:

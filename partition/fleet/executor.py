@@ -86,11 +86,20 @@ def _solve(job: RouteJob) -> Route:
 
 
 def solve_job(net: Network, profile: Profile, job: RouteJob, *, time_limit_s: float = 10.0,
-              turn_aware: bool = True) -> Route:
-    """Route one territory (an empty territory gives an empty route at the depot)."""
+              turn_aware: bool = True, start_min: float | None = None) -> Route:
+    """Route one territory (an empty territory gives an empty route at the depot).
+
+    With ``start_min`` (a clock time, cycle plans) the route starts then and serves posted
+    passes inside their windows (:func:`crewcut.solve.calendar.dayroute.plan_day_route`).
+    """
     if not job.segments:
         return Route(depot=job.depot, traversals=(), totals=RouteTotals.of(()), method="empty",
-                     exact=True, lower_bound_min=0.0)
+                     exact=True, lower_bound_min=0.0, start_min=start_min)
+    if start_min is not None:
+        from crewcut.solve.calendar.dayroute import plan_day_route
+
+        return plan_day_route(net, profile, job.depot, np.asarray(job.segments, np.int64), start_min,
+                              turn_aware=turn_aware, time_limit_s=time_limit_s, seed=job.seed)
     from crewcut.solve.route import plan_route
 
     return plan_route(net, profile, job.depot, np.asarray(job.segments, np.int64), turn_aware=turn_aware,
@@ -105,7 +114,7 @@ class LocalRouter:
     """
 
     def __init__(self, net: Network, profile: Profile, *, workers: int | None = None,
-                 time_limit_s: float = 10.0, turn_aware: bool = True) -> None:
+                 time_limit_s: float = 10.0, turn_aware: bool = True, start_min: float | None = None) -> None:
         check_workers(workers)
         self.net = net
         self.profile = profile
@@ -116,6 +125,8 @@ class LocalRouter:
             workers = cores
         self.workers = cores if workers is None else workers
         self.options = {"time_limit_s": float(time_limit_s), "turn_aware": bool(turn_aware)}
+        if start_min is not None:  # cycle plans: clock times and posted windows
+            self.options["start_min"] = float(start_min)
         self._pool: Executor | None = None
 
     def _executor(self) -> Executor:

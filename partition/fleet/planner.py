@@ -25,13 +25,14 @@ Method (cluster first, route second, then local search)
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import numpy as np
 
 from crewcut.solve.errors import InputError
 from crewcut.solve.seeds import check_seed
 from crewcut.solve.network.model import Network
-from crewcut.solve.network.scope import run_scope
+from crewcut.solve.network.scope import ServiceScope, run_scope
 from crewcut.solve.readers.area import ServiceArea
 from crewcut.solve.profile import Crew, Profile
 from crewcut.solve.circuits.turns import TurnModel
@@ -40,7 +41,7 @@ from crewcut.fleet.assemble import finish_plan, route_and_balance
 from crewcut.fleet.executor import LocalRouter, Router, check_workers
 from crewcut.fleet.progress import ProgressFn, with_log
 from crewcut.fleet.seeding import seed_territories
-from crewcut.fleet.streets import build_street_graph, depot_travel, round_trips
+from crewcut.fleet.streets import StreetGraph, build_street_graph, depot_travel, round_trips
 from crewcut.fleet.territories import BorderTurns, describe_segment, grow_territories, polish_borders, smooth_boundaries
 from crewcut.plans.model import BalanceLimits, Plan, RunOptions, recorded_crew
 
@@ -69,32 +70,11 @@ def plan_fleet(net: Network, profile: Profile, crews: list[Crew], *, seed: int =
         serve (default: the profile's); see :mod:`crewcut.solve.network.scope`. Left-out
         streets are listed in the plan's ``left_out`` with their reasons.
     """
-    _check(crews, seed, time_limit_s, tolerance, max_iterations)
+    plan_checks(crews, seed, time_limit_s, tolerance, max_iterations)
     check_workers(workers)
     report = _progress(progress)
-    scope = run_scope(net, profile, [int(c.depot_node) for c in crews], area, unservable)
-    net = scope.network
-    sg = build_street_graph(net, profile)
-    if not sg.required.any():
-        raise InputError("the network has no segment that needs service under this profile",
-                         "check the profile's default_service per road class and the data's service tags")
-    depots = [int(c.depot_node) for c in crews]
-    uniq = sorted(set(depots))
-    out, back = depot_travel(net, profile, uniq)
-    rt_depot = round_trips(net, sg, out, back)
-    row = np.array([uniq.index(d) for d in depots])
-    rt = rt_depot[row]  # (k, m)
-    eligible = np.isfinite(rt)
-    _check_reach(net, sg, crews, eligible, rt)
-    report("territories", 0, 1)
-    depot_xy = np.stack([net.node_x[depots], net.node_y[depots]], axis=1)
-    centres, seeds = seed_territories(sg, depot_xy, eligible, seed=seed)
-    approach = np.array([rt[c, s] - sg.service_min[s] if s >= 0 else 0.0 for c, s in enumerate(seeds)])
-    owner = grow_territories(net, sg, centres, seeds, eligible, approach)
-    smooth_boundaries(net, sg, owner, eligible)
-    border = BorderTurns(net, sg, TurnModel.from_network(net, profile))
-    polish_borders(net, sg, owner, eligible, border)
-    report("territories", 1, 1)
+    lay = lay_out_territories(net, profile, crews, seed=seed, progress=report, area=area, unservable=unservable)
+    net, sg, eligible, owner, border, scope = lay.net, lay.sg, lay.eligible, lay.owner, lay.border, lay.scope
     own_router = router is None
     if own_router:
         router = LocalRouter(net, profile, workers=workers, time_limit_s=route_time_limit_s)
@@ -114,7 +94,57 @@ def plan_fleet(net: Network, profile: Profile, crews: list[Crew], *, seed: int =
                        left_out=scope.left_out)
 
 
-def _check(crews, seed, time_limit_s, tolerance, max_iterations) -> None:
+@dataclass(frozen=True)
+class Layout:
+    """Territories before routing: the network in scope, its street graph, who may serve what, the owners."""
+
+    net: Network
+    sg: StreetGraph
+    eligible: np.ndarray  # (k, m) bool
+    owner: np.ndarray  # (m,) crew index per segment, -1: no service
+    border: BorderTurns
+    scope: ServiceScope
+
+
+def lay_out_territories(net: Network, profile: Profile, crews: list[Crew], *, seed: int = 0,
+                        progress: ProgressFn | None = None, area: ServiceArea | None = None,
+                        unservable: str | None = None, allowed: np.ndarray | None = None) -> Layout:
+    """Steps 1 and 2 of the module's method: the scope, seeds, connected territories, polished borders.
+
+    ``allowed``: optional (k, m) bool, False where a crew may not serve a segment whatever its reach
+    (a street posted for a day the crew does not work); None: every crew may serve every segment.
+    """
+    report = _progress(progress)
+    scope = run_scope(net, profile, [int(c.depot_node) for c in crews], area, unservable)
+    net = scope.network
+    sg = build_street_graph(net, profile)
+    if not sg.required.any():
+        raise InputError("the network has no segment that needs service under this profile",
+                         "check the profile's default_service per road class and the data's service tags")
+    depots = [int(c.depot_node) for c in crews]
+    uniq = sorted(set(depots))
+    out, back = depot_travel(net, profile, uniq)
+    rt_depot = round_trips(net, sg, out, back)
+    row = np.array([uniq.index(d) for d in depots])
+    rt = rt_depot[row]  # (k, m)
+    eligible = np.isfinite(rt)
+    if allowed is not None:
+        eligible &= allowed
+    _check_reach(net, sg, crews, eligible, rt)
+    report("territories", 0, 1)
+    depot_xy = np.stack([net.node_x[depots], net.node_y[depots]], axis=1)
+    centres, seeds = seed_territories(sg, depot_xy, eligible, seed=seed)
+    approach = np.array([rt[c, s] - sg.service_min[s] if s >= 0 else 0.0 for c, s in enumerate(seeds)])
+    owner = grow_territories(net, sg, centres, seeds, eligible, approach)
+    smooth_boundaries(net, sg, owner, eligible)
+    border = BorderTurns(net, sg, TurnModel.from_network(net, profile))
+    polish_borders(net, sg, owner, eligible, border)
+    report("territories", 1, 1)
+    return Layout(net, sg, eligible, owner, border, scope)
+
+
+def plan_checks(crews, seed, time_limit_s, tolerance, max_iterations) -> None:
+    """The up-front checks of a fleet plan's parameters (InputError naming the parameter)."""
     if not crews:
         raise InputError("no crews to plan for", "give crews (`k` and `depot_lonlat`, or [[crews]] in the config)")
     check_seed(seed)

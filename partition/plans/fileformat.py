@@ -20,6 +20,7 @@ from crewcut.solve.errors import InputError
 from crewcut.solve.network.scope import LeftOutStreet
 from crewcut.solve.profile import Crew, Profile, crew_id_problem, profile_from_dict, recorded_fields
 from crewcut.solve.readers.area import ServiceArea
+from crewcut.solve.calendar.cycle import make_cycle
 from crewcut.solve.result import Route, RouteTotals, Traversal
 
 from crewcut.plans.schema import schema_problem
@@ -58,10 +59,22 @@ def dumps(doc: dict) -> str:
 
 
 # ------------------------------------------------------------------ typed -> document
+def _traversal_dict(x: Traversal) -> dict:
+    d = {"segment": x.segment, "from": x.from_node, "to": x.to_node, "mode": "service" if x.service else "deadhead",
+         "metres": rnd(x.metres, 3), "minutes": rnd(x.minutes, 5), "turn": x.turn,
+         "turn_minutes": rnd(x.turn_minutes, 5)}
+    if x.wait_minutes:  # only cycle plans wait; other plans keep the bytes they always had
+        d["wait_minutes"] = rnd(x.wait_minutes, 5)
+    return d
+
+
 def route_section(route: Route, rid: str = "route-1") -> dict:
     t = route.totals
-    return {
-        "id": rid,
+    doc = {"id": rid}
+    if route.day is not None:
+        doc["day"] = route.day
+        doc["start_min"] = rnd(route.start_min, 3)
+    doc.update({
         "method": route.method,
         "exact": route.exact,
         "lower_bound_min": rnd(route.lower_bound_min, 4),
@@ -69,12 +82,11 @@ def route_section(route: Route, rid: str = "route-1") -> dict:
                    "deadhead_km": rnd(t.deadhead_km, 4), "deadhead_min": rnd(t.deadhead_min, 4),
                    "turn_min": rnd(t.turn_min, 4), "total_min": rnd(t.total_min, 4),
                    "u_turns": t.u_turns, "across_turns": t.across_turns},
-        "traversals": [{"segment": x.segment, "from": x.from_node, "to": x.to_node,
-                        "mode": "service" if x.service else "deadhead",
-                        "metres": rnd(x.metres, 3), "minutes": rnd(x.minutes, 5),
-                        "turn": x.turn, "turn_minutes": rnd(x.turn_minutes, 5)}
-                       for x in route.traversals],
-    }
+        "traversals": [_traversal_dict(x) for x in route.traversals],
+    })
+    if route.day is not None:
+        doc["totals"]["wait_min"] = rnd(t.wait_min, 4)
+    return doc
 
 
 def crew_section(c: CrewPlan) -> dict:
@@ -102,8 +114,8 @@ def summary_dict(s: FleetSummary | RouteSummary | None) -> dict:
         return {}
     d = {f.name: getattr(s, f.name) for f in dataclasses.fields(s)}
     if isinstance(s, FleetSummary):
-        d["over_limit"] = [dataclasses.asdict(o) for o in s.over_limit]
-        for key in ("balance", "deferred_segments", "deferred_min"):
+        d["over_limit"] = [{k: v for k, v in dataclasses.asdict(o).items() if v is not None} for o in s.over_limit]
+        for key in ("balance", "deferred_segments", "deferred_min", "crew_days", "day_balance", "window_misses"):
             if d[key] is None:
                 del d[key]
         if s.balance is not None:
@@ -138,8 +150,8 @@ def _deferred_dict(d: DeferredSegment) -> dict:
 _OPTION_ORDER = {
     "route": ("command", "depot_node", "seed", "turn_aware", "unservable", "area", "crews", "rebalance",
               "route_time_limit_s"),
-    "fleet": ("seed", "crews", "unservable", "area", "balance", "route_time_limit_s", "rebalance"),
-    "other": ("seed", "crews", "unservable", "area", "rebalance", "route_time_limit_s"),
+    "fleet": ("seed", "crews", "unservable", "area", "cycle", "balance", "route_time_limit_s", "rebalance"),
+    "other": ("seed", "crews", "unservable", "area", "cycle", "rebalance", "route_time_limit_s"),
 }
 
 
@@ -152,11 +164,14 @@ def options_dict(o: RunOptions) -> dict:
         if v is None:
             continue
         if key == "crews":
-            v = [{"id": c.id, "depot_node": c.depot_node, "shift_limit_min": c.shift_limit_min} for c in v]
+            v = [{"id": c.id, "depot_node": c.depot_node, "shift_limit_min": c.shift_limit_min,
+                  **({"days_off": list(c.days_off)} if c.days_off else {})} for c in v]
         elif key in ("balance", "rebalance"):
             v = dataclasses.asdict(v)
         elif key == "area":
             v = {"source": v.source, **v.to_geojson()}
+        elif key == "cycle":
+            v = v.to_dict()
         out[key] = v
     return out
 
@@ -262,6 +277,11 @@ def record_problem(plan: dict) -> str | None:
                     return f"crew '{cid}' route '{rid}': traversal {j} does not match its segment's end nodes"
                 if not isinstance(t.get("turn", ""), str):
                     return f"crew '{cid}' route '{rid}': traversal {j} has a turn that is not text"
+                if "wait_minutes" in t and not (_is_finite(t["wait_minutes"]) and t["wait_minutes"] >= 0):
+                    return f"crew '{cid}' route '{rid}': traversal {j} has a wait that is not 0 or more minutes"
+            if "day" in r and not (isinstance(r["day"], str) and _is_finite(r.get("start_min"))
+                                   and _is_finite(r["totals"].get("wait_min", 0.0))):
+                return f"crew '{cid}' route '{rid}' has a day but no clock start (start_min) or wait total"
             bad = [k for k in _TOTALS if not (_is_finite(r["totals"].get(k)) if k.endswith(("_km", "_min"))
                                               else _is_int(r["totals"].get(k)))]
             if bad:
@@ -322,14 +342,15 @@ def _settings_problem(settings) -> str | None:
 
 def _traversals(rec: dict) -> tuple[Traversal, ...]:
     return tuple(Traversal(t["segment"], t["from"], t["to"], t["mode"] == "service", t["metres"], t["minutes"],
-                           str(t.get("turn", "unknown")), t["turn_minutes"]) for t in rec["traversals"])
+                           str(t.get("turn", "unknown")), t["turn_minutes"], t.get("wait_minutes", 0.0))
+                 for t in rec["traversals"])
 
 
 def _route(rec: dict, depot: int) -> Route:
     tot = rec["totals"]
-    totals = RouteTotals(**{k: tot[k] for k in _TOTALS})
+    totals = RouteTotals(**{k: tot[k] for k in _TOTALS}, wait_min=tot.get("wait_min", 0.0))
     return Route(depot, _traversals(rec), totals, str(rec.get("method", "")), bool(rec.get("exact", False)),
-                 rec.get("lower_bound_min", 0.0))
+                 rec.get("lower_bound_min", 0.0), day=rec.get("day"), start_min=rec.get("start_min"))
 
 
 def _crew(rec: dict) -> CrewPlan:
@@ -367,7 +388,10 @@ def _options(rec: dict) -> RunOptions:
         raise InputError(f"settings: unknown run option(s) {', '.join(repr(k) for k in unknown)}")
     kw = dict(rec)
     if kw.get("crews") is not None:
-        kw["crews"] = tuple(Crew(c["id"], c["shift_limit_min"], None, c["depot_node"]) for c in kw["crews"])
+        kw["crews"] = tuple(Crew(c["id"], c["shift_limit_min"], None, c["depot_node"], tuple(c.get("days_off", ())))
+                            for c in kw["crews"])
+    if kw.get("cycle") is not None:
+        kw["cycle"] = make_cycle(kw["cycle"].get("days"), kw["cycle"].get("shift_start"), "settings: cycle")
     if kw.get("balance") is not None:
         kw["balance"] = BalanceLimits(**kw["balance"])
     if kw.get("rebalance") is not None:

@@ -16,6 +16,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from crewcut.solve.calendar.cycle import Cycle
 from crewcut.solve.network.scope import LeftOutStreet
 from crewcut.solve.profile import Crew, Profile
 from crewcut.solve.readers.area import ServiceArea
@@ -92,8 +93,9 @@ class PlanNetwork:
 
 # ------------------------------------------------------------------ settings
 def recorded_crew(crew: Crew) -> Crew:
-    """The crew as a plan records it: id, depot node and shift limit in minutes (no lon/lat depot)."""
-    return Crew(crew.id, float(crew.shift_limit_min), None, None if crew.depot_node is None else int(crew.depot_node))
+    """The crew as a plan records it: id, depot node, shift limit in minutes and days off (no lon/lat depot)."""
+    return Crew(crew.id, float(crew.shift_limit_min), None, None if crew.depot_node is None else int(crew.depot_node),
+                tuple(crew.days_off))
 
 
 def recorded_profile(profile: Profile) -> Profile:
@@ -147,6 +149,7 @@ class RunOptions:
     turn_aware: bool | None = None
     unservable: str | None = None
     area: ServiceArea | None = None
+    cycle: Cycle | None = None  # cycle plans: the working days and the shift start
 
 
 @dataclass(frozen=True)
@@ -185,8 +188,13 @@ class CrewPlan:
 
     @property
     def shift_min(self) -> float:
-        """The crew's shift: the sum of its routes' totals."""
+        """The crew's shift: the sum of its routes' totals (in a cycle plan, the whole cycle's work)."""
         return sum(r.totals.total_min for r in self.routes)
+
+    @property
+    def longest_day_min(self) -> float:
+        """The longest of its routes (a cycle plan's longest day; 0 without routes)."""
+        return max((r.totals.total_min for r in self.routes), default=0.0)
 
 
 # ------------------------------------------------------------------ summary
@@ -198,6 +206,7 @@ class OverLimit:
     shift_min: float
     limit_min: float
     over_min: float
+    day: str | None = None  # cycle plans: the day whose route is over the limit
 
 
 @dataclass(frozen=True)
@@ -243,6 +252,11 @@ class FleetSummary:
     balance: BalanceOutcome | None = None
     deferred_segments: int | None = None
     deferred_min: float | None = None
+    # cycle plans: routes planned (one per crew and working day), the worst crew's longest
+    # day over its mean day, and passes served outside their posted window
+    crew_days: int | None = None
+    day_balance: float | None = None
+    window_misses: int | None = None
 
 
 @dataclass(frozen=True)

@@ -1,0 +1,169 @@
+"""One crew's route on one cycle day, serving posted passes inside their windows.
+
+Problem
+-------
+Serve every required pass of a day's segments on a closed route from the depot,
+starting at the shift's clock time, so that every pass of a posted segment is
+driven inside its window (waiting is allowed and counted), with as few minutes
+as possible. This is arc routing with time windows, NP-hard (it contains the
+postman problem's rural case); the result is a heuristic route with the plain
+route's lower bound, which stays a valid bound because dropping the windows
+only relaxes the problem.
+
+Method
+------
+1. The plain route (:func:`crewcut.solve.route.plan_route`) with waits inserted
+   (:func:`crewcut.solve.calendar.clock.with_waits`) is the first candidate.
+2. Window blocks: the posted segments grouped by window, in order of opening
+   (then closing) time; the unposted ones form a free block, tried at every
+   position in the order. Each block is a closed route from an anchor node (its
+   node nearest the previous anchor), joined by least-minute deadhead paths
+   (scipy's Dijkstra on the legal driving directions); turns are classified
+   again along the whole walk.
+3. The candidate that meets every window with the fewest total minutes wins;
+   if none meets them all, the one with the least lateness, and the route's
+   ``stats["window_misses"]`` counts the passes outside their windows.
+"""
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+from scipy import sparse
+from scipy.sparse.csgraph import dijkstra
+
+from crewcut.solve.calendar.clock import window_misses, with_waits
+from crewcut.solve.circuits.turns import TurnModel
+from crewcut.solve.network.model import Network
+from crewcut.solve.postman.tasks import build_deadhead
+from crewcut.solve.profile import Profile
+from crewcut.solve.result import TURNS, Route, RouteTotals, Traversal
+from crewcut.solve.route import plan_route
+
+
+def posted_windows(net: Network, segments) -> dict[int, tuple[int, int]]:
+    """Segment -> (open, close) clock minutes for the segments whose posting has a window."""
+    out = {}
+    for s in segments:
+        p = net.posting(int(s))
+        if p is not None and p.has_window:
+            out[int(s)] = (int(p.open_min), int(p.close_min))
+    return out
+
+
+def plan_day_route(net: Network, profile: Profile, depot: int, segments, start_min: float, *,
+                   turn_aware: bool = True, time_limit_s: float = 10.0, seed: int = 0) -> Route:
+    """A closed route from ``depot`` starting at clock ``start_min`` (module docstring).
+
+    Parameters are those of :func:`crewcut.solve.route.plan_route`, plus ``start_min``
+    (minutes after midnight). The route's ``start_min`` is set; its ``day`` is left None
+    (the caller knows the day).
+    """
+    segs = sorted(int(s) for s in segments)
+    base = plan_route(net, profile, depot, segs, turn_aware=turn_aware, time_limit_s=time_limit_s, seed=seed)
+    windows = posted_windows(net, segs)
+    if not windows:
+        return replace(base, start_min=float(start_min))
+    cands: list[tuple[list[Traversal], str, bool]] = [(list(base.traversals), base.method, base.exact)]
+    blocks: dict[tuple[int, int], list[int]] = {}
+    free = []
+    for s in segs:
+        if s in windows:
+            blocks.setdefault(windows[s], []).append(s)
+        else:
+            free.append(s)
+    order = [blocks[w] for w in sorted(blocks)]
+    if len(order) > 1 or free:
+        paths = _Paths(net, profile, depot)
+        turns = TurnModel.from_network(net, profile)
+        subs: dict[int, Route] = {}
+        positions = range(len(order) + 1) if free else [len(order)]
+        for pos in positions:
+            groups = order[:pos] + ([free] if free else []) + order[pos:]
+            walk = _chain(net, profile, depot, groups, paths, subs, turn_aware, time_limit_s, seed)
+            cands.append((_returned(net, walk, turns), "window blocks joined by least-minute paths; heuristic", False))
+    best = None
+    for i, (trav, method, exact) in enumerate(cands):
+        timed, late = with_waits(trav, start_min, windows)
+        total = sum(t.wait_minutes + t.turn_minutes + t.minutes for t in timed)
+        key = (late > 1e-6, late, total, i)
+        if best is None or key < best[0]:
+            best = (key, timed, method, exact)
+    _, timed, method, exact = best
+    stats = dict(base.stats)
+    stats.update(window_blocks=len(order), window_misses=len(window_misses(timed, start_min, windows)),
+                 candidates=len(cands))
+    return Route(depot=base.depot, traversals=tuple(timed), totals=RouteTotals.of(timed), method=method,
+                 exact=exact, lower_bound_min=base.lower_bound_min, stats=stats, start_min=float(start_min))
+
+
+class _Paths:
+    """Least-minute deadhead paths between nodes over the legal directions a depot's closed walks use."""
+
+    def __init__(self, net: Network, profile: Profile, depot: int) -> None:
+        arcs = build_deadhead(net, profile, depot)
+        self.arcs = arcs
+        order = np.lexsort((arcs.seg, arcs.minutes))  # cheapest arc first; lowest segment on ties
+        best: dict[tuple[int, int], int] = {}
+        for a in order.tolist():
+            best.setdefault((int(arcs.tail[a]), int(arcs.head[a])), a)
+        self.best = best
+        keys = np.array(sorted(best), np.int64).reshape(-1, 2)
+        w = np.array([arcs.minutes[best[(int(t), int(h))]] for t, h in keys]) + 1e-9
+        n = net.n_nodes
+        self.g = sparse.csr_matrix((w, (keys[:, 0], keys[:, 1])), shape=(n, n))
+        self.net = net
+
+    def walk(self, a: int, b: int) -> list[Traversal]:
+        if a == b:
+            return []
+        _, pred = dijkstra(self.g, directed=True, indices=a, return_predecessors=True)
+        nodes = [b]
+        while nodes[-1] != a:
+            p = int(pred[nodes[-1]])
+            if p < 0:
+                raise ValueError(f"node {b} cannot be reached from node {a}")
+            nodes.append(p)
+        nodes.reverse()
+        out = []
+        for u, v in zip(nodes[:-1], nodes[1:]):
+            i = self.best[(u, v)]
+            out.append(Traversal(int(self.arcs.seg[i]), u, v, False, float(self.arcs.metres[i]),
+                                 float(self.arcs.minutes[i])))
+        return out
+
+
+def _anchor(net: Network, segs: list[int], near: int) -> int:
+    ends = np.unique(np.concatenate([net.seg_u[segs], net.seg_v[segs]]))
+    d = np.hypot(net.node_x[ends] - net.node_x[near], net.node_y[ends] - net.node_y[near])
+    return int(ends[np.lexsort((ends, d))[0]])
+
+
+def _chain(net, profile, depot, groups, paths: _Paths, subs: dict, turn_aware, time_limit_s, seed) -> list[Traversal]:
+    walk: list[Traversal] = []
+    cur = depot
+    for g in groups:
+        key = id(g)
+        anchor = _anchor(net, g, cur)
+        if (key, anchor) not in subs:
+            subs[(key, anchor)] = plan_route(net, profile, anchor, g, turn_aware=turn_aware,
+                                             time_limit_s=time_limit_s, seed=seed)
+        walk += paths.walk(cur, anchor)
+        walk += list(subs[(key, anchor)].traversals)
+        cur = anchor
+    walk += paths.walk(cur, depot)
+    return walk
+
+
+def _returned(net: Network, walk: list[Traversal], turns: TurnModel) -> list[Traversal]:
+    """The walk with every turn classified again from its neighbours (the first is the start)."""
+    if not walk:
+        return walk
+    seg = np.array([t.segment for t in walk], np.int64)
+    fwd = np.array([t.from_node for t in walk], np.int64) == net.seg_u[seg]
+    codes = np.zeros(len(walk), np.int64)
+    codes[1:] = turns.classify(seg[:-1], fwd[:-1], seg[1:], fwd[1:])
+    sec = turns.seconds(codes)
+    sec[0] = 0.0
+    return [replace(t, turn=TURNS[int(c)], turn_minutes=float(s) / 60.0) for t, c, s in zip(walk, codes, sec)]
+
