@@ -30,6 +30,8 @@ FLAGS: dict[str, str] = {
     "n_segments": "--segments",
     "area": "--area",
     "unservable": "--unservable",
+    "days": "--days",
+    "shift_start": "--shift-start",
 }
 
 _NAMED = re.compile(r"`([A-Za-z_][A-Za-z0-9_]*)`")

@@ -43,3 +43,28 @@ def left_out_table(items) -> Table:
     table.add_row(Text("total", style="bold"), "", f"{sum(r['segments'] for r in rows):,}",
                   f"{sum(r['length_m'] for r in rows):,.1f}", "")
     return table
+
+
+def week_table(plan: Plan) -> Table:
+    """The cycle table: hours per crew and day (days over the limit marked '!'), totals."""
+    from crewcut.reports.week import week_rows
+
+    days, rows = week_rows(plan)
+    table = Table(title="The cycle: hours per crew and day", title_justify="left", header_style="bold",
+                  caption="h = hours of the day's route, waiting for posted windows included; '-': no route that day",
+                  caption_justify="left")
+    table.add_column("crew")
+    for d in days:
+        table.add_column(f"{d} (h)", justify="right")
+    for col in ("cycle (h)", "service (km)", "deadhead (km)", "waiting (h)"):
+        table.add_column(col, justify="right")
+    for r in rows:
+        cells = [r["crew"]]
+        for d in days:
+            h = r["days"][d]
+            mark = " !" if h is not None and r["limit_h"] is not None and h > r["limit_h"] + 1e-9 else ""
+            cells.append("-" if h is None else f"{h:.2f}{mark}")
+        cells += [f"{r['hours']:.2f}", f"{r['service_km']:.2f}", f"{r['deadhead_km']:.2f}", f"{r['wait_h']:.2f}"]
+        table.add_row(*[Text(terminal_text(c)) for c in cells], style="bold" if r is rows[-1] else None,
+                      end_section=r is rows[-2])
+    return table

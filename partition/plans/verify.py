@@ -41,6 +41,7 @@ from crewcut.solve.readers.area import ServiceArea
 
 from crewcut.plans.model import Plan
 from crewcut.plans.verify_figures import check_figures
+from crewcut.plans.verify_cycle import check_cycle
 from crewcut.plans.verify_network import check_network
 from crewcut.plans.verify_routes import check_routes
 from crewcut.plans.verify_scope import scope_truth
@@ -131,7 +132,8 @@ def _checks(plan: Plan, net: Network, profile: Profile, from_config: bool, area:
         yield v
         return
     deferred = {d.segment for d in plan.deferred or ()}
-    for part in (check_routes(plan, net, profile, deferred), check_figures(plan, net, profile)):
+    for part in (check_routes(plan, net, profile, deferred), check_cycle(plan, net, profile),
+                 check_figures(plan, net, profile)):
         v = next(part, None)
         if v is not None:
             yield v
@@ -159,6 +161,8 @@ class Overview:
 
 def plan_overview(plan: Plan) -> Overview:
     shifts = [c.shift_min for c in plan.crews]
+    if plan.settings.options.cycle is not None:  # a cycle plan's shift is a day
+        shifts = [c.longest_day_min for c in plan.crews]
     return Overview(crews=len(plan.crews), traversals=sum(len(r.traversals) for c in plan.crews for r in c.routes),
                     segments=sum(len(c.territory) for c in plan.crews),
                     longest_min=max(shifts) if shifts else 0.0)

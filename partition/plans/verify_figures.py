@@ -5,6 +5,7 @@
   count and minutes, and ``over_limit`` (exactly the crews whose shift exceeds
   their limit, with their figures) recomputed from the routes.
 * One-crew plans: the total, the U-turns and turns across traffic from the route.
+* Cycle plans: :mod:`crewcut.plans.verify_cycle` checks the per-day figures instead.
 * The lower bound: recomputed from the network and the profile with
   :func:`crewcut.solve.postman.bounds.fleet_lower_bound` (the crews' depots, k
   crews, the segments still served); the recorded bound may not exceed it. A
@@ -30,7 +31,10 @@ from crewcut.plans.violation import TOL_MIN, Violation
 _TOL_FIG = 0.01  # summary figures are sums over many rounded totals
 _NUMBERS = {"crews", "longest_min", "mean_min", "shortest_min", "longest_over_mean", "lower_bound_min", "gap",
             "total_shift_min", "service_min", "deadhead_min", "deadhead_pct", "deferred_segments", "deferred_min",
-            "total_min", "u_turns", "across_turns"}
+            "total_min", "u_turns", "across_turns", "crew_days", "day_balance", "window_misses"}
+
+
+_OPTIONAL = {"deferred_segments", "deferred_min", "crew_days", "day_balance", "window_misses"}
 
 
 def _number(x) -> bool:
@@ -49,7 +53,7 @@ def check_figures(plan: Plan, net: Network, profile: Profile):
         return
     for f in dataclasses.fields(summ):
         v = getattr(summ, f.name)
-        if f.name in _NUMBERS and not _number(v) and not (v is None and f.name.startswith("deferred")):
+        if f.name in _NUMBERS and not _number(v) and not (v is None and f.name in _OPTIONAL):
             yield Violation("summary", f"{f.name} is {v!r}, not a number", "summary")
             return
     for o in getattr(summ, "over_limit", ()):
@@ -57,6 +61,11 @@ def check_figures(plan: Plan, net: Network, profile: Profile):
             yield Violation("summary.over_limit", f"the entry of crew {o.crew!r} holds a value that is not a number",
                             "over limit")
             return
+    if isinstance(summ, FleetSummary) and plan.settings.options.cycle is not None:
+        from crewcut.plans.verify_cycle import cycle_figures
+
+        yield from cycle_figures(plan, net, profile, summ)
+        return
     if isinstance(summ, FleetSummary):
         yield from _fleet(plan, summ)
     elif isinstance(summ, RouteSummary):

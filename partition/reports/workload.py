@@ -7,7 +7,9 @@ The terminal table is drawn by the command line from the same rows.
 
 Definitions (minutes and metres from the traversals, summed over a crew's routes):
 service km / h: traversals in ``service`` mode; driving h: deadhead minutes plus
-turn delays, so that service h + driving h = shift h; deadhead %: deadhead
+turn delays (and, in a cycle plan, waits for posted windows), so that service h +
+driving h = shift h; in a cycle plan the shift is the whole cycle's and its limit
+the shift limit times the crew's day routes; deadhead %: deadhead
 distance over all distance driven; % of limit: shift over the crew's shift limit.
 The lower bound and gap come from the plan's ``summary`` (keys
 ``lower_bound_min`` and ``gap``) when the planner recorded them.
@@ -66,8 +68,12 @@ def _crew_row(pv: PlanView, crew: CrewPlan) -> dict:
             turn_min += st.turn_minutes
             u += st.turn == "u_turn"
             across += st.turn == "across_traffic"
-    shift = s_min + d_min + turn_min
-    limit = float(crew.shift_limit_min or 0.0)
+    wait_min = sum(r.totals.wait_min for r in crew.routes)
+    shift = s_min + d_min + turn_min + wait_min
+    day_routes = [r for r in crew.routes if r.day is not None]
+    # a cycle plan's crew works one shift per day route: its limit over the cycle, over the day the worst day
+    limit = float(crew.shift_limit_min or 0.0) * max(1, len(day_routes))
+    over = max((r.totals.total_min - crew.shift_limit_min for r in day_routes), default=shift - limit)
     return {
         "row": "crew",
         "crew": crew.id,
@@ -77,13 +83,13 @@ def _crew_row(pv: PlanView, crew: CrewPlan) -> dict:
         "deadhead_km": d_m / 1000.0,
         "deadhead_pct": _pct(d_m, s_m + d_m),
         "service_h": s_min / 60.0,
-        "driving_h": (d_min + turn_min) / 60.0,
+        "driving_h": (d_min + turn_min + wait_min) / 60.0,
         "u_turns": u,
         "across_turns": across,
         "shift_h": shift / 60.0,
         "shift_limit_h": limit / 60.0,
         "limit_pct": _pct(shift, limit),
-        "over_limit_min": max(0.0, shift - limit) if limit > 0 else 0.0,
+        "over_limit_min": max(0.0, over) if limit > 0 else 0.0,
     }
 
 
@@ -108,6 +114,8 @@ def workload_summary(plan: Plan | PlanView) -> dict:
     pv = view(plan)
     rows = workload_rows(pv)[:-1]
     shifts = [r["shift_h"] * 60.0 for r in rows]
+    if getattr(pv.summary, "crew_days", None):  # a cycle plan: the bound and the limits are per day
+        shifts = [r.totals.total_min for c in pv.crews for r in c.routes]
     longest = max(shifts, default=0.0)
     mean = sum(shifts) / len(shifts) if shifts else 0.0
     lb = getattr(pv.summary, "lower_bound_min", None)
@@ -140,15 +148,17 @@ def summary_lines(plan: Plan | PlanView) -> list[str]:
     s = workload_summary(plan)
     if not s["crews"]:
         return ["no crews in this plan"]
-    lines = [f"longest shift {s['longest_shift_min'] / 60:.2f} h, mean {s['mean_shift_min'] / 60:.2f} h, "
+    unit = "day" if getattr(view(plan).summary, "crew_days", None) else "shift"
+    lines = [f"longest {unit} {s['longest_shift_min'] / 60:.2f} h, mean {s['mean_shift_min'] / 60:.2f} h, "
              f"longest / mean {s['longest_over_mean']:.3f}"]
     if s["lower_bound_min"] is None:
-        lines.append("lower bound on the longest shift: not recorded in this plan")
+        lines.append(f"lower bound on the longest {unit}: not recorded in this plan")
     else:
-        lines.append(f"lower bound on the longest shift {s['lower_bound_min'] / 60:.2f} h, "
+        lines.append(f"lower bound on the longest {unit} {s['lower_bound_min'] / 60:.2f} h, "
                      f"gap {100 * s['gap']:.1f} %")
     for o in s["over_limit"]:
-        lines.append(f"over the shift limit: {o['crew']} by {o['over_min']:.0f} min")
+        lines.append(f"over the shift limit: {o['crew']} by {o['over_min']:.0f} min"
+                     + (" on its longest day" if unit == "day" else ""))
     pv = view(plan)
     area = pv.plan.settings.options.area
     if area is not None:

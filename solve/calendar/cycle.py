@@ -69,11 +69,19 @@ def check_days(days: object, where: str, param: str | None = None) -> tuple[str,
     return tuple(out)
 
 
-def make_cycle(days: object, shift_start: object = None, where: str = "cycle") -> Cycle:
-    """A :class:`Cycle` from day labels and a ``"HH:MM"`` shift start (default 06:00), checked."""
-    labels = check_days(days, where, param="days")
-    start = DEFAULT_SHIFT_START_MIN if shift_start is None else parse_clock(shift_start, f"{where}: shift_start")
+def make_cycle(days: object, shift_start: object = None, where: str = "cycle", *,
+               as_parameters: bool = False) -> Cycle:
+    """A :class:`Cycle` from day labels and a ``"HH:MM"`` shift start (default 06:00), checked.
+
+    ``as_parameters``: errors name the library parameters ``days`` and ``shift_start``
+    (a call's arguments) rather than only ``where`` (a config table).
+    """
+    labels = check_days(days, where, param="days" if as_parameters else None)
+    try:
+        start = DEFAULT_SHIFT_START_MIN if shift_start is None else parse_clock(shift_start, f"{where}: shift_start")
+    except InputError as exc:
+        raise InputError(exc.message, exc.hint, param="shift_start" if as_parameters else None) from None
     if start >= 24 * 60:
         raise InputError(f"{where}: shift_start {clock(start)} is not within a day", "e.g. 06:00",
-                         param="shift_start")
+                         param="shift_start" if as_parameters else None)
     return Cycle(labels, start)

@@ -19,6 +19,11 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--depot", metavar="LON,LAT", help="the shared depot of --crews K")
     parser.add_argument("--crew", metavar="ID", action="append", default=None,
                         help="plan only for this crew of the config (repeat for several)")
+    parser.add_argument("--days", metavar="LABELS",
+                        help="plan a cycle: one route per crew and working day, e.g. mon,tue,wed,thu,fri "
+                             "(default: the config's [cycle], else one shift per crew)")
+    parser.add_argument("--shift-start", metavar="HH:MM",
+                        help="clock time the shifts of a cycle start (default: the config's, else 06:00)")
     add_scope_arguments(parser)
     add_run_arguments(parser)
     parser.add_argument("--out", metavar="DIR", default="crewcut-out",
@@ -40,15 +45,55 @@ def run(args, ui) -> int:
     area = scope_area(args)
     net = read_network(args.network, profile)
     crews = resolve_crews(net, profile, k=args.crews, depot_lonlat=depot, only=args.crew)
+    cycle = _cycle(args, profile)
     t0 = time.perf_counter()
     with stage_progress(ui) as progress:
-        plan = plan_fleet(net, profile, crews, seed=args.seed, workers=args.workers,
-                          time_limit_s=args.time_limit, progress=progress, source=str(args.network),
-                          area=area, unservable=args.unservable)
+        if cycle is None:
+            plan = plan_fleet(net, profile, crews, seed=args.seed, workers=args.workers,
+                              time_limit_s=args.time_limit, progress=progress, source=str(args.network),
+                              area=area, unservable=args.unservable)
+        else:
+            from crewcut.cycle.planner import plan_cycle
+
+            plan = plan_cycle(net, profile, crews, cycle, seed=args.seed, workers=args.workers,
+                              time_limit_s=args.time_limit, progress=progress, source=str(args.network),
+                              area=area, unservable=args.unservable)
     seconds = time.perf_counter() - t0
-    path = write_plan(plan, out_dir / "plan.json")
+    if cycle is None:
+        path = write_plan(plan, out_dir / "plan.json")
+    else:
+        from crewcut.files import atomic_write_many
+        from crewcut.plans.planfile import plan_to_json
+        from crewcut.reports.signage import signage_csv
+
+        written = atomic_write_many([(out_dir / "plan.json", plan_to_json(plan)),
+                                     (out_dir / "signage.csv", signage_csv(plan))])
+        path = written[0]
     _print(ui, plan, path, seconds)
     return 0
+
+
+def _cycle(args, profile):
+    """The cycle from --days / --shift-start, else the config's [cycle], else None."""
+    from crewcut.solve.calendar.cycle import make_cycle
+
+    if args.days is None:
+        if profile.cycle is None:
+            if args.shift_start is not None:
+                from crewcut.solve.errors import InputError
+
+                raise InputError("`shift_start` is given but no cycle is planned", "add --days mon,tue,wed,thu,fri",
+                                 param="shift_start")
+            return None
+        if args.shift_start is None:
+            return profile.cycle
+        return make_cycle(profile.cycle.days, args.shift_start, "--shift-start", as_parameters=True)
+    start = args.shift_start
+    if start is None and profile.cycle is not None:
+        from crewcut.solve.calendar.postings import clock
+
+        start = clock(profile.cycle.shift_start_min)
+    return make_cycle(args.days, start, "--days", as_parameters=True)
 
 
 def _print(ui, plan, path: Path, seconds: float) -> None:
@@ -58,6 +103,13 @@ def _print(ui, plan, path: Path, seconds: float) -> None:
 
     s = plan.summary
     ui.out.print(workload_table(plan))
+    if s.crew_days is not None:
+        from crewcut.cli.tables import week_table
+
+        ui.out.print(week_table(plan))
+        ui.out.print(f"{s.crew_days} day routes; the most uneven crew's longest day is {s.day_balance:.3f} x its "
+                     f"mean day; {s.window_misses} pass(es) outside their posted window; signage table in "
+                     f"{path.parent / 'signage.csv'}")
     ui.out.print("the gap is an upper bound on how far this heuristic plan is from the best possible")
     b = s.balance
     if b:
