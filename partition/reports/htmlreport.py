@@ -14,6 +14,7 @@ from __future__ import annotations
 from crewcut.plans.model import Plan
 from crewcut.plans.view import PlanView, view
 from crewcut.reports.leftout import left_out_rows
+from crewcut.reports.caution import CAUTION
 from crewcut.reports.sheets import crew_sheets, html_document, to_html_section
 from crewcut.reports.textsafety import html_text
 from crewcut.reports.svgmap import crew_colours, route_svg, territory_svg
@@ -37,7 +38,13 @@ figure svg { max-width: 100%; height: auto; border: 1px solid #d8d8d0; }
 .crewpage { break-before: page; page-break-before: always; }
 .crewpage .sheet { break-before: auto; page-break-before: auto; }
 nav.toc a { margin-right: 1em; }
-@media print { nav.toc { display: none; } figure svg { border: none; } }
+p.caution { border-left: 4px solid #a01010; padding: 0.3em 0.6em; background: #faf5ee; }
+.print-caution { display: none; }
+@media print { nav.toc { display: none; } figure svg { border: none; }
+  /* a fixed element is printed on every page: the caution reaches each printed page */
+  .print-caution { display: block; position: fixed; bottom: 0; left: 0; right: 0; font-size: 8pt;
+                   color: #444; background: #ffffff; }
+  body { margin-bottom: 2.5em; } }
 """
 
 
@@ -85,7 +92,9 @@ def report_html(pv: Plan | PlanView) -> str:
     n_req = sum(1 for s in pv.segments if s.passes.total > 0)
     parts = [f"<h1>Street work plan &ndash; {e(pv.title)}</h1>",
              f'<p class="lede">{len(pv.crews)} crews, {n_req} segments to serve, '
-             f'{pv.traffic}-hand traffic.</p>']
+             f'{pv.traffic}-hand traffic.</p>',
+             f'<p class="caution"><strong>Caution.</strong> {e(CAUTION)}</p>',
+             f'<div class="print-caution">{e(CAUTION)}</div>']
     if pv.crews:
         parts.append('<nav class="toc">' + "".join(f'<a href="#crew-{i}">{e(c.id)}</a>'
                                                  for i, c in enumerate(pv.crews)) + "</nav>")

@@ -27,8 +27,11 @@ import math
 import re
 from dataclasses import dataclass, field
 
+from crewcut.solve.calendar.postings import clock
+
 from crewcut.plans.model import CrewPlan, Plan, route_id
 from crewcut.plans.view import PlanView, view
+from crewcut.reports.caution import CAUTION
 from crewcut.reports.textsafety import html_text, markdown_text, terminal_text
 from crewcut.solve.result import Route
 
@@ -62,6 +65,9 @@ class Sheet:
     total_min: float  # the route's recorded total
     service_km: float
     deadhead_km: float
+    day: str | None = None  # cycle plans: the route's day, its clock start and its waits
+    start_min: float | None = None
+    wait_min: float = 0.0
 
 
 def initial_bearing(p: list[float], q: list[float]) -> float:
@@ -116,6 +122,11 @@ def route_sheet(pv: Plan | PlanView, crew: CrewPlan, route: Route, name: str | N
     for i, st in enumerate(steps):
         name = pv.segments[st.segment].name or ""
         mode = "serve" if st.service else "drive"
+        if st.wait_minutes:  # a posted window not yet open: the wait gets a line of its own
+            elapsed += st.wait_minutes
+            lines.append(SheetLine("wait", street=f"wait {hmm(st.wait_minutes)} h:mm for the posted window",
+                                   elapsed_min=elapsed))
+            cur = None
         if cur is not None and name and cur.street == name and cur.mode == mode and st.turn != "u_turn":
             cur.traversals.append(i)
         else:
@@ -135,13 +146,14 @@ def route_sheet(pv: Plan | PlanView, crew: CrewPlan, route: Route, name: str | N
                  depot_lonlat=pv.node_lonlat(depot), lines=lines,
                  total_min=float(route.totals.total_min),
                  service_km=sum(s.metres for s in steps if s.service) / 1000.0,
-                 deadhead_km=sum(s.metres for s in steps if not s.service) / 1000.0)
+                 deadhead_km=sum(s.metres for s in steps if not s.service) / 1000.0,
+                 day=route.day, start_min=route.start_min, wait_min=float(route.totals.wait_min))
 
 
 def crew_sheets(pv: Plan | PlanView, crews: list[CrewPlan] | tuple[CrewPlan, ...]) -> list[Sheet]:
     """The sheets of every route of ``crews``, crew by crew."""
     pv = view(pv)
-    return [route_sheet(pv, c, r, route_id(i)) for c in crews for i, r in enumerate(c.routes)]
+    return [route_sheet(pv, c, r, r.day or route_id(i)) for c in crews for i, r in enumerate(c.routes)]
 
 
 # ------------------------------------------------------------------ rendering
@@ -156,27 +168,38 @@ def distance(metres: float) -> str:
 
 
 HEAD = ("#", "turn", "street", "work", "heading", "distance (m)", "elapsed (h:mm)")
+CLOCK_HEAD = HEAD[:-1] + ("clock (hh:mm)",)
+
+
+def _head(sheet: Sheet) -> tuple[str, ...]:
+    return CLOCK_HEAD if sheet.start_min is not None else HEAD
 
 
 def _cells(sheet: Sheet) -> list[list[str]]:
     out = []
     n = 0
+    when = (lambda m: clock(sheet.start_min + m)) if sheet.start_min is not None else hmm
     for ln in sheet.lines:
         if ln.kind == "step":
             n += 1
             out.append([str(n), ln.turn, ln.street, ln.mode, ln.heading or "-", distance(ln.metres),
-                        hmm(ln.elapsed_min)])
+                        when(ln.elapsed_min)])
         else:
-            out.append(["", "", ln.street, "", "", "", hmm(ln.elapsed_min)])
+            out.append(["", "", ln.street, "", "", "", when(ln.elapsed_min)])
     return out
 
 
 def _intro(sheet: Sheet) -> list[str]:
     where = "" if sheet.depot_lonlat is None else f" at lon {sheet.depot_lonlat[0]:.6f}, lat {sheet.depot_lonlat[1]:.6f}"
     n = sum(ln.kind == "step" for ln in sheet.lines)
-    return [f"Depot: {sheet.depot}{where}",
-            f"Shift: {hmm(sheet.total_min)} h:mm ({sheet.total_min:.1f} min); serve {sheet.service_km:.2f} km, "
-            f"drive without serving {sheet.deadhead_km:.2f} km; {n} lines"]
+    out = [f"Depot: {sheet.depot}{where}"]
+    if sheet.start_min is not None:
+        out.append(f"Day: {sheet.day}; the shift starts at {clock(sheet.start_min)} and ends about "
+                   f"{clock(sheet.start_min + sheet.total_min)}; waiting for posted windows {hmm(sheet.wait_min)} h:mm")
+    out += [f"Shift: {hmm(sheet.total_min)} h:mm ({sheet.total_min:.1f} min); serve {sheet.service_km:.2f} km, "
+            f"drive without serving {sheet.deadhead_km:.2f} km; {n} lines",
+            f"Caution: {CAUTION}"]
+    return out
 
 
 def plain_text(text: str) -> str:
@@ -185,7 +208,7 @@ def plain_text(text: str) -> str:
 
 
 def to_text(sheet: Sheet) -> str:
-    cells = [list(HEAD)] + [[plain_text(c) for c in r] for r in _cells(sheet)]
+    cells = [list(_head(sheet))] + [[plain_text(c) for c in r] for r in _cells(sheet)]
     widths = [max(len(r[i]) for r in cells) for i in range(len(HEAD))]
     right = {0, 5, 6}
     title = f"Route sheet - {plain_text(sheet.crew)}, {plain_text(sheet.route)}"
@@ -200,7 +223,7 @@ def to_text(sheet: Sheet) -> str:
 def to_markdown(sheet: Sheet) -> str:
     esc = markdown_text
     out = [f"## Route sheet - {esc(sheet.crew)}, {esc(sheet.route)}", ""] + [f"- {esc(x)}" for x in _intro(sheet)] + [""]
-    out.append("| " + " | ".join(HEAD) + " |")
+    out.append("| " + " | ".join(_head(sheet)) + " |")
     out.append("|" + "|".join("---:" if i in (0, 5, 6) else ":---" for i in range(len(HEAD))) + "|")
     out += ["| " + " | ".join(esc(c) for c in r) + " |" for r in _cells(sheet)]
     return "\n".join(out) + "\n"
@@ -230,7 +253,7 @@ def to_html_section(sheet: Sheet, colour: str | None = None, extra: str = "") ->
            f"<h2>Route sheet &ndash; {e(sheet.crew)}, {e(sheet.route)}</h2>",
            '<p class="intro">' + "<br>".join(e(x) for x in _intro(sheet)) + "</p>", extra,
            '<table class="steps"><thead><tr>'
-           + "".join(f'<th class="n">{e(h)}</th>' if i in (0, 5, 6) else f"<th>{e(h)}</th>" for i, h in enumerate(HEAD))
+           + "".join(f'<th class="n">{e(h)}</th>' if i in (0, 5, 6) else f"<th>{e(h)}</th>" for i, h in enumerate(_head(sheet)))
            + "</tr></thead><tbody>"]
     for ln, r in zip(sheet.lines, _cells(sheet)):
         cls = "depot" if ln.kind != "step" else ln.mode + (" uturn" if ln.turn == "U-turn" else "")

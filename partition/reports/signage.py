@@ -22,12 +22,13 @@ from crewcut.solve.calendar.clock import timing
 from crewcut.solve.calendar.postings import clock
 
 from crewcut.plans.model import Plan
+from crewcut.reports.caution import CAUTION
 from crewcut.reports.textsafety import csv_cell
 
 COLUMNS = ("street", "feature", "side", "day", "window", "crew", "basis")
 SIDES = {"right_curb": "right", "left_curb": "left"}
-CAUTION = ("advice for posting signs only; follow local codes, traffic law and the city's posting rules, "
-           "and keep crews and vehicles clear of parked cars and people")
+SIGN_CAUTION = ("advice for posting signs only; local codes, traffic law and the city's posting rules decide. "
+                + CAUTION)
 
 
 def _feature(source_id: str) -> str:
@@ -76,5 +77,5 @@ def signage_csv(plan: Plan) -> str:
     w.writerow(COLUMNS)
     for r in signage_rows(plan):
         w.writerow([csv_cell(r[c]) for c in COLUMNS])
-    w.writerow([csv_cell(f"# {CAUTION}")])
+    w.writerow([csv_cell(f"# {SIGN_CAUTION}")])
     return buf.getvalue()

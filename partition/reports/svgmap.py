@@ -31,6 +31,7 @@ import numpy as np
 
 from crewcut.plans.model import CrewPlan, Plan
 from crewcut.plans.view import PlanView, view
+from crewcut.reports.caution import SHORT_CAUTION
 from crewcut.reports.textsafety import SafeText, XmlEscaper, xml_note
 
 PALETTE = ("#2255aa", "#ff7711", "#66bbff", "#884411", "#9900ff", "#ddaa77", "#774477", "#8877ff")
@@ -152,7 +153,9 @@ def _svg(width: int, height: int, body: list[str], title: str, standalone: bool,
                     f'viewBox="0 0 {width} {height}" {FONT} role="img" aria-label="{label}">\n{note}'
                     f'<rect x="0" y="0" width="{width}" height="{height}" fill="#ffffff"/>\n'
                     f'<text x="{MARGIN}" y="26" font-size="16" font-weight="bold" fill="{INK}">{shown}</text>\n'
-                    + "\n".join(body) + "\n</svg>\n", esc.replaced)
+                    + "\n".join(body) + "\n"
+                    f'<text x="{MARGIN}" y="{height - 4}" font-size="10" fill="{INK}">{esc.text(SHORT_CAUTION)}</text>'
+                    "\n</svg>\n", esc.replaced)
 
 
 def _scale_bar(fr: _Frame) -> str:
