@@ -114,7 +114,8 @@ def _seg_arrays(net: Network, keep: np.ndarray | slice, closed: np.ndarray | Non
         seg_oneway=net.seg_oneway[idx], seg_service=net.seg_service[idx],
         seg_class=[net.seg_class[i] for i in idx], seg_name=[net.seg_name[i] for i in idx],
         seg_speed_kmh=net.seg_speed_kmh[idx], seg_closed=net.seg_closed[idx] if closed is None else closed,
-        seg_coords=[net.seg_coords[i] for i in idx], seg_source=[net.seg_source[i] for i in idx], findings=())
+        seg_coords=[net.seg_coords[i] for i in idx], seg_source=[net.seg_source[i] for i in idx], findings=(),
+        seg_posting=_kept_postings([net.posting(i) for i in idx.tolist()]))
 
 
 def _differences(plan: Plan, net: Network, closed: np.ndarray, limit: int = 6) -> list[str]:
@@ -238,7 +239,14 @@ def append_streets(base: Network, add: Network, tol_m: float) -> Network:
         seg_service=cat([base.seg_service, add.seg_service]), seg_class=base.seg_class + list(add.seg_class),
         seg_name=base.seg_name + list(add.seg_name), seg_speed_kmh=cat([base.seg_speed_kmh, add.seg_speed_kmh]),
         seg_closed=cat([base.seg_closed, add.seg_closed]), seg_coords=base.seg_coords + list(add.seg_coords),
-        findings=base.findings)
+        findings=base.findings,
+        seg_posting=_kept_postings([base.posting(i) for i in range(base.n_segments)]
+                                   + [add.posting(i) for i in range(add.n_segments)]))
+
+
+def _kept_postings(postings: list) -> tuple:
+    """``Network.seg_posting`` for these segments: empty when none is posted (the fingerprint's rule)."""
+    return tuple(postings) if any(p is not None for p in postings) else ()
 
 
 def _no_mid_touch(base: Network, add: Network, ax, ay, joined: np.ndarray, tol: float) -> None:
