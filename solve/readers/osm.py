@@ -55,7 +55,8 @@ Road class is the highway value; service is the profile's default for it.
 
 Posted sweeping times: ``parking:both|left|right:restriction:conditional``
 (:func:`crewcut.solve.readers.osmtags.way_postings`); a way turned round for
-``oneway=-1`` has its left and right swapped.
+``oneway=-1`` has its left and right swapped. Curbs posted for different times
+become segments ``way/ID:left`` and ``way/ID:right`` (:mod:`crewcut.solve.network.curbs`).
 """
 from __future__ import annotations
 
