@@ -28,6 +28,7 @@ import pytest
 
 from helpers.geojson import collection, feature, grid, offset, write
 from crewcut.cli.main import main
+from crewcut.fleet.day_network import resolve_closures
 from crewcut.plans.planfile import read_plan
 from crewcut.solve.calendar.postings import parse_conditional, parse_posting
 from crewcut.solve.costs import required_passes
@@ -108,6 +109,23 @@ def test_bad_posting_names_feature_and_property(tmp_path, value, match):
     with pytest.raises(InputError, match=match) as err:
         read_network(path, RIGHT)
     assert "feature 'elm'" in err.value.message and "posted:left" in err.value.message
+
+
+def test_readme_states_the_grammar_of_the_module():
+    """The README's grammar block is the one postings.py documents (a consistency check, no outside source)."""
+    from pathlib import Path
+
+    import crewcut.solve.calendar.postings as postings
+
+    def block(text: str) -> list[str]:
+        lines = [ln.strip() for ln in text.splitlines()]
+        start = next(i for i, ln in enumerate(lines) if ln.startswith("posting     :="))
+        return lines[start:start + 6]
+
+    readme = (Path(__file__).resolve().parent.parent / "README.md").read_text(encoding="utf-8")
+    assert block(readme) == block(postings.__doc__)
+    for name in ("posted:left", "posted:right", "parking:both:restriction:conditional"):
+        assert name in readme
 
 
 # ------------------------------------------------------------------- GeoJSON
@@ -293,7 +311,7 @@ def test_osm_both_tag_and_bad_tag(tmp_path):
 
 
 # ----------------------------------------------------------------- networkx
-def test_networkx_edge_attributes():
+def test_networkx_edge_attributes(tmp_path):
     g = nx.MultiDiGraph()
     g.add_node(1, x=-30.500, y=45.200)
     g.add_node(2, x=-30.499, y=45.200)
@@ -302,6 +320,12 @@ def test_networkx_edge_attributes():
     net = network_from_graph(g, _osm_profile())
     assert net.seg_source == ["way/7:left", "way/7:right"]
     assert net.posting(1).window_text() == "05:00-06:00"
+    # the same graph through a GraphML file as networkx writes it (attributes become text)
+    del g.edges[1, 2, 0]["posted"]  # GraphML has no NaN-valued text; a missing key is how it says "absent"
+    nx.write_graphml(g, tmp_path / "g.graphml")
+    again = read_network(tmp_path / "g.graphml", _osm_profile())
+    assert again.seg_source == net.seg_source
+    assert [again.posting(s).day for s in (0, 1)] == ["sat", "sun"]
 
 
 # ----------------------------------------------------------- command line
@@ -344,6 +368,10 @@ def test_plan_records_postings_and_verify_catches_a_forgery(tmp_path, capsys):
     assert (rec.posted.day, rec.posted.window) == ("tue", "08:00-10:00")
     assert main(["verify", "out/plan.json", str(path)]) == 0
     capsys.readouterr()
+    # closing the street by its own id closes both of its curbs (one street on the ground)
+    both = sorted(r.id for r in plan.network.segments if r.source_id.startswith("e0_0:"))
+    assert resolve_closures(plan, ["e0_0"]).tolist() == both
+    assert resolve_closures(plan, ["e0_0:right"]).tolist() == both[1:]
     for forged in ({"day": "fri", "window": "08:00-10:00"}, None):
         d = json.loads(raw)
         for s in d["network"]["segments"]:

@@ -15,6 +15,7 @@ import numpy as np
 
 from crewcut.solve.costs import deadhead_minutes, service_minutes
 from crewcut.solve.errors import InputError
+from crewcut.solve.network.curbs import CURB_SUFFIX
 from crewcut.solve.network.model import SERVICE_LABELS, Network, RawLine
 from crewcut.solve.network.scope import segments_inside, without_service
 from crewcut.solve.profile import Profile
@@ -48,8 +49,9 @@ def resolve_closures(plan: Plan, items: Iterable) -> np.ndarray:
 
     A whole number is a segment id of the plan (as in the plan file and route
     sheets); any other text is a feature id from the street data (every segment
-    cut from that feature closes); ``feature=ID`` forces a feature id that is a
-    whole number.
+    cut from that feature closes; the id of a street split into its two posted curbs,
+    ``ID:left`` and ``ID:right``, closes both); ``feature=ID`` forces a feature id that
+    is a whole number.
     """
     segs = plan.network.segments
     m = len(segs)
@@ -81,6 +83,10 @@ def resolve_closures(plan: Plan, items: Iterable) -> np.ndarray:
             by_source = {}
             for rec in segs:
                 by_source.setdefault(rec.source_id, []).append(rec.id)
+        if key and key not in by_source:  # a street split into its two posted curbs: close both
+            curbs = [rec_id for side in CURB_SUFFIX.values() for rec_id in by_source.get(key + side, [])]
+            if curbs:
+                by_source[key] = curbs
         if not key or key not in by_source:
             raise InputError(f"closed street '{key}' does not exist: no segment of the plan's network comes "
                              f"from a feature with that id",
