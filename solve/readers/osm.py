@@ -69,8 +69,9 @@ from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import Finding, Network, RawLine
 from crewcut.solve.profile import Profile
 from crewcut.solve.calendar.postings import swap_sides
+from crewcut.solve.readers.osmtags import way_postings  # posted sweeping times (own line: eases merges)
 from crewcut.solve.readers.osmtags import (WayRules, rules_for, size_verdict,
-                                           way_direction, way_postings, way_refusal)
+                                           way_direction, way_refusal)
 from crewcut.solve.vehicle import SIZE_TAGS, Vehicle
 from crewcut.solve.network.repair import build_network
 
