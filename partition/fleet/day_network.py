@@ -15,6 +15,7 @@ import numpy as np
 
 from crewcut.solve.costs import deadhead_minutes, service_minutes
 from crewcut.solve.errors import InputError
+from crewcut.solve.network.curbs import CURB_SUFFIX
 from crewcut.solve.network.model import SERVICE_LABELS, Network, RawLine
 from crewcut.solve.network.scope import segments_inside, without_service
 from crewcut.solve.profile import Profile
@@ -48,8 +49,9 @@ def resolve_closures(plan: Plan, items: Iterable) -> np.ndarray:
 
     A whole number is a segment id of the plan (as in the plan file and route
     sheets); any other text is a feature id from the street data (every segment
-    cut from that feature closes); ``feature=ID`` forces a feature id that is a
-    whole number.
+    cut from that feature closes; the id of a street split into its two posted curbs,
+    ``ID:left`` and ``ID:right``, closes both); ``feature=ID`` forces a feature id that
+    is a whole number.
     """
     segs = plan.network.segments
     m = len(segs)
@@ -81,6 +83,10 @@ def resolve_closures(plan: Plan, items: Iterable) -> np.ndarray:
             by_source = {}
             for rec in segs:
                 by_source.setdefault(rec.source_id, []).append(rec.id)
+        if key and key not in by_source:  # a street split into its two posted curbs: close both
+            curbs = [rec_id for side in CURB_SUFFIX.values() for rec_id in by_source.get(key + side, [])]
+            if curbs:
+                by_source[key] = curbs
         if not key or key not in by_source:
             raise InputError(f"closed street '{key}' does not exist: no segment of the plan's network comes "
                              f"from a feature with that id",
@@ -114,7 +120,8 @@ def _seg_arrays(net: Network, keep: np.ndarray | slice, closed: np.ndarray | Non
         seg_oneway=net.seg_oneway[idx], seg_service=net.seg_service[idx],
         seg_class=[net.seg_class[i] for i in idx], seg_name=[net.seg_name[i] for i in idx],
         seg_speed_kmh=net.seg_speed_kmh[idx], seg_closed=net.seg_closed[idx] if closed is None else closed,
-        seg_coords=[net.seg_coords[i] for i in idx], seg_source=[net.seg_source[i] for i in idx], findings=())
+        seg_coords=[net.seg_coords[i] for i in idx], seg_source=[net.seg_source[i] for i in idx], findings=(),
+        seg_posting=_kept_postings([net.posting(i) for i in idx.tolist()]))
 
 
 def _differences(plan: Plan, net: Network, closed: np.ndarray, limit: int = 6) -> list[str]:
@@ -238,7 +245,14 @@ def append_streets(base: Network, add: Network, tol_m: float) -> Network:
         seg_service=cat([base.seg_service, add.seg_service]), seg_class=base.seg_class + list(add.seg_class),
         seg_name=base.seg_name + list(add.seg_name), seg_speed_kmh=cat([base.seg_speed_kmh, add.seg_speed_kmh]),
         seg_closed=cat([base.seg_closed, add.seg_closed]), seg_coords=base.seg_coords + list(add.seg_coords),
-        findings=base.findings)
+        findings=base.findings,
+        seg_posting=_kept_postings([base.posting(i) for i in range(base.n_segments)]
+                                   + [add.posting(i) for i in range(add.n_segments)]))
+
+
+def _kept_postings(postings: list) -> tuple:
+    """``Network.seg_posting`` for these segments: empty when none is posted (the fingerprint's rule)."""
+    return tuple(postings) if any(p is not None for p in postings) else ()
 
 
 def _no_mid_touch(base: Network, add: Network, ax, ay, joined: np.ndarray, tol: float) -> None:

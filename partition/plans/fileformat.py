@@ -26,8 +26,8 @@ from crewcut.solve.result import Route, RouteTotals, Traversal
 from crewcut.plans.schema import schema_problem
 from crewcut.plans.model import (CHANGE_FIELDS, FORMAT, VERSION, BalanceLimits, BalanceOutcome, Change, CrewPlan,
                                  DeferredSegment, FleetSummary, History, NodeRecord, OverLimit, Plan, PlanNetwork,
-                                 PlanSettings, ReplanLimits, RouteSummary, RunOptions, SegmentPasses, SegmentRecord,
-                                 route_id)
+                                 PlanSettings, PostedRecord, ReplanLimits, RouteSummary, RunOptions, SegmentPasses,
+                                 SegmentRecord, route_id)
 
 FIX = "re-plan, or restore the file as crewcut wrote it"
 _TOTALS = ("service_km", "service_min", "deadhead_km", "deadhead_min", "turn_min", "total_min", "u_turns",
@@ -106,7 +106,13 @@ def _segment_dict(s: SegmentRecord) -> dict:
             "class": s.road_class, "service": s.service,
             "passes": {"forward": p.forward, "backward": p.backward, "either": p.either},
             "service_min": rnd(s.service_min, 5), "deadhead_min": rnd(s.deadhead_min, 5),
-            "coords": None if s.coords is None else [[rnd(x, 7), rnd(y, 7)] for x, y in s.coords]}
+            "coords": None if s.coords is None else [[rnd(x, 7), rnd(y, 7)] for x, y in s.coords],
+            **({} if s.posted is None else {"posted": posted_dict(s.posted)})}
+
+
+def posted_dict(p: PostedRecord) -> dict:
+    """A posted time as the file writes it: ``{"day": "tue", "window": "08:00-10:00"}``, no window key without one."""
+    return {"day": p.day, **({"window": p.window} if p.window else {})}
 
 
 def summary_dict(s: FleetSummary | RouteSummary | None) -> dict:
@@ -369,7 +375,9 @@ def _segment(s: dict) -> SegmentRecord:
                          bool(s["closed"]), str(s["name"]), str(s["class"]), str(s["service"]),
                          SegmentPasses(s["passes"]["forward"], s["passes"]["backward"], s["passes"]["either"]),
                          s["service_min"], s["deadhead_min"],
-                         None if c is None else tuple((q[0], q[1]) for q in c))
+                         None if c is None else tuple((q[0], q[1]) for q in c),
+                         None if s.get("posted") is None else PostedRecord(str(s["posted"]["day"]),
+                                                                           str(s["posted"].get("window", ""))))
 
 
 def _network(nw: dict) -> PlanNetwork:

@@ -17,6 +17,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from crewcut.solve.calendar.cycle import Cycle
+from crewcut.solve.calendar.postings import Posting
 from crewcut.solve.network.scope import LeftOutStreet
 from crewcut.solve.profile import Crew, Profile
 from crewcut.solve.readers.area import ServiceArea
@@ -56,11 +57,25 @@ class SegmentPasses:
 
 
 @dataclass(frozen=True)
+class PostedRecord:
+    """A segment's posted sweeping time as the plan file records it: the day label and ``HH:MM-HH:MM`` or ``""``."""
+
+    day: str
+    window: str = ""
+
+    @classmethod
+    def of(cls, posting: Posting | None) -> "PostedRecord | None":
+        """The record of a :class:`~crewcut.solve.calendar.postings.Posting` (None for None)."""
+        return None if posting is None else cls(posting.day, posting.window_text())
+
+
+@dataclass(frozen=True)
 class SegmentRecord:
     """A segment of the plan's network with its required passes, minutes and geometry.
 
     ``from_node``/``to_node`` are the file's ``from``/``to``, ``road_class`` its ``class``;
-    ``coords`` are ``(lon, lat)`` pairs, or None without geometry.
+    ``coords`` are ``(lon, lat)`` pairs, or None without geometry; ``posted`` is the
+    segment's posted sweeping time, or None (the file then has no ``posted`` key).
     """
 
     id: int
@@ -77,6 +92,7 @@ class SegmentRecord:
     service_min: float
     deadhead_min: float
     coords: tuple[tuple[float, float], ...] | None
+    posted: PostedRecord | None = None
 
 
 @dataclass(frozen=True)

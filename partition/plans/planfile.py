@@ -28,9 +28,9 @@ from crewcut.solve.profile import Profile
 
 from crewcut.files import atomic_write
 from crewcut.plans.fileformat import (FIX, crew_section, dumps, history_dict, left_out_dict, options_dict,
-                                      plan_from_dict, plan_to_dict, rnd, summary_dict)
+                                      plan_from_dict, plan_to_dict, posted_dict, rnd, summary_dict)
 from crewcut.plans.model import (FORMAT, VERSION, CrewPlan, DeferredSegment, FleetSummary, History, Plan,
-                                 RouteSummary, RunOptions)
+                                 PostedRecord, RouteSummary, RunOptions)
 
 __all__ = ["FIX", "network_section", "plan_digest", "plan_from_dict",
            "build_plan", "plan_to_dict", "plan_to_json", "read_plan", "write_plan"]
@@ -64,6 +64,9 @@ def network_section(net: Network, profile: Profile, source: str = "") -> dict:
             "deadhead_min": rnd(dmin[s], 5),
             "coords": None if coords is None else [[rnd(x, 7), rnd(y, 7)] for x, y in coords.tolist()],
         })
+        posted = PostedRecord.of(net.posting(s))
+        if posted is not None:  # written only when set, so plans without postings keep their bytes
+            segs[-1]["posted"] = posted_dict(posted)
     return {"fingerprint": net.fingerprint, "source": source, "has_geometry": net.has_geometry,
             "origin": list(net.origin), "nodes": nodes, "segments": segs}
 

@@ -4,7 +4,7 @@ The network file is the truth. Every record the plan keeps of it is compared
 with what the file gives (read with the profile): the fingerprint, every
 segment's ends, length, one-way flag and closure, every node's position (to the
 plan's 7-decimal rounding) and label, every segment's feature id, name, road
-class, service kind and drawn line, and the required passes and service and
+class, service kind, posted sweeping time and drawn line, and the required passes and service and
 deadhead minutes the profile gives each segment.
 """
 from __future__ import annotations
@@ -15,7 +15,7 @@ from crewcut.solve.costs import deadhead_minutes, required_passes, service_minut
 from crewcut.solve.network.model import SERVICE_LABELS, Network
 from crewcut.solve.profile import Profile
 
-from crewcut.plans.model import Plan
+from crewcut.plans.model import Plan, PostedRecord
 from crewcut.plans.violation import TOL_DEG, TOL_M, Violation
 
 
@@ -67,7 +67,8 @@ def _segments(plan: Plan, net: Network):
     for s, rec in enumerate(plan.network.segments):
         for key, got, want in (("feature id", rec.source_id, net.seg_source[s]), ("name", rec.name, net.seg_name[s]),
                                ("road class", rec.road_class, net.seg_class[s]),
-                               ("service", rec.service, SERVICE_LABELS[int(net.seg_service[s])])):
+                               ("service", rec.service, SERVICE_LABELS[int(net.seg_service[s])]),
+                               ("posted time", _shown(rec.posted), _shown(PostedRecord.of(net.posting(s))))):
             if got != want:
                 yield Violation(f"segment {s}", f"{key} {got!r} in the plan, {want!r} in the network", "name")
                 return
@@ -84,6 +85,10 @@ def _segments(plan: Plan, net: Network):
                             f"its drawn line in the plan ({len(got)} points) is not the network's "
                             f"({len(want_line)} points)", "drawn line")
             return
+
+
+def _shown(p: PostedRecord | None) -> str:
+    return "none" if p is None else f"{p.day} {p.window}".strip()
 
 
 def _passes_and_minutes(plan: Plan, net: Network, profile: Profile):

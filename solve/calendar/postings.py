@@ -25,6 +25,11 @@ along the line's drawn direction). OpenStreetMap ways carry a ``conditional`` in
 "Key:parking" and "Conditional restrictions" pages; only one day and one window
 per curb is read, more are refused rather than guessed).
 
+Which posting holds where: ``posted`` holds for both curbs. ``posted`` may stand
+beside ``posted:left`` / ``posted:right`` only when they say the same time (else
+the feature is refused). A line drawn against the traffic (``oneway=-1``) is
+reversed by the readers, and its left and right are swapped with it.
+
 A weekday names the cycle day with that weekday; in a two-week cycle
 ("mon1" ... "fri2") a weekday alone is ambiguous and refused: write the label.
 Reference: OpenStreetMap wiki, "Conditional restrictions" and "Key:opening_hours"
@@ -49,6 +54,11 @@ SIDES = ("both", "left", "right")
 _TIME = r"(\d{1,2}):(\d{2})"
 _POSTING_RE = re.compile(rf"^([a-z][a-z0-9_]*)(?:\s+{_TIME}\s*-\s*{_TIME})?$")
 _COND_RE = re.compile(r"^([a-z_]+)\s*@\s*\((.*)\)$")
+
+# property names in street files (GeoJSON properties, CSV and GraphML columns), per side
+POSTED_KEYS = {"both": "posted", "left": "posted:left", "right": "posted:right"}
+# OpenStreetMap way tags, per side (Key:parking, Conditional restrictions)
+OSM_POSTED_KEYS = {side: f"parking:{side}:restriction:conditional" for side in SIDES}
 
 GRAMMAR_HINT = ("write a day and optionally a window, e.g. \"tue 08:00-10:00\" or \"wed\"; "
                 "OpenStreetMap: \"no_parking @ (Tu 08:00-10:00)\"")
@@ -139,3 +149,59 @@ def parse_conditional(text: object, where: str) -> Posting:
     if p.day not in WEEKDAYS:
         raise InputError(f"{where}: {text!r} names {p.day!r}, not a weekday (Mo..Su)", GRAMMAR_HINT)
     return Posting(p.day, p.open_min, p.close_min, text.strip())
+
+
+def read_posted(props, where: str, keys: dict[str, str] | None = None,
+                conditional: bool = False) -> dict[str, Posting]:
+    """The postings a feature carries, keyed ``"both"`` / ``"left"`` / ``"right"``.
+
+    Parameters
+    ----------
+    props:
+        The feature's properties or tags (anything with ``.get``).
+    where:
+        Names the feature in messages (``"streets.geojson: feature 'elm-3'"``).
+    keys:
+        Property name per side; :data:`POSTED_KEYS` unless given
+        (:data:`OSM_POSTED_KEYS` for OpenStreetMap tags).
+    conditional:
+        Read values as OpenStreetMap ``conditional`` restrictions, not ``posting``.
+
+    Raises
+    ------
+    InputError
+        A value outside the grammar, or ``both`` beside a side that says another time;
+        the message names ``where`` and the property.
+    """
+    keys = POSTED_KEYS if keys is None else keys
+    parse = parse_conditional if conditional else parse_posting
+    out: dict[str, Posting] = {}
+    for side in SIDES:
+        value = props.get(keys[side])
+        if value is None or value == "":
+            continue
+        out[side] = parse(value, f"{where}: {keys[side]}")
+    both = out.get("both")
+    for side in ("left", "right"):
+        if both is not None and side in out and not both.same_time(out[side]):
+            raise InputError(f"{where}: {keys['both']} {both.text!r} and {keys[side]} {out[side].text!r} "
+                             "give the same curb two different times",
+                             f"drop {keys['both']} and post each curb on its own, or make them agree")
+    return out
+
+
+def swap_sides(posted: dict[str, Posting]) -> dict[str, Posting]:
+    """The postings of a line turned round: left becomes right and right left."""
+    flip = {"both": "both", "left": "right", "right": "left"}
+    return {flip[side]: p for side, p in posted.items()}
+
+
+def curb_postings(posted: dict[str, Posting]) -> tuple[Posting | None, Posting | None]:
+    """``(left, right)``: the posting each curb is under (a side's own, else ``both``, else None)."""
+    both = posted.get("both")
+    return posted.get("left", both), posted.get("right", both)
+
+
+def same_or_none(a: Posting | None, b: Posting | None) -> bool:
+    """True when both curbs are unposted or posted for the same time."""
+    return (a is None and b is None) or (a is not None and a.same_time(b))

@@ -73,6 +73,9 @@ class RawLine:
     to_label: str | None = None
     length_m: float | None = None
     closed: bool = False  # cannot be driven or served (works, event)
+    # Posted sweeping times (crewcut.solve.calendar.postings.Posting) keyed "both", "left", "right";
+    # left and right as seen along coords (from_label -> to_label); readers swap them when they reverse a line
+    posted: dict = field(default_factory=dict)
 
 
 @dataclass(frozen=True, eq=False)

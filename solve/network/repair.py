@@ -7,6 +7,9 @@ Problem
     needs exact shared nodes.
 
 Method
+    0. Curbs posted for different times on a street served on both sides become
+       two parallel lines, one per curb (:mod:`crewcut.solve.network.curbs`);
+       every piece of a line carries its posting.
     1. Snap: line ends closer than ``profile.snap_tolerance_m`` become one node
        (exact duplicates by ``numpy.unique``, then pairs within the tolerance
        from a ``scipy.spatial.cKDTree`` in a local metric projection, merged
@@ -33,10 +36,12 @@ import numpy as np
 
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.geodesy import geodesic_lengths, project
+from crewcut.solve.network.curbs import split_curbs
 from crewcut.solve.network.layout import path_layout
 from crewcut.solve.network.model import SERVICE_NAMES, Finding, Network, RawLine
 from crewcut.solve.profile import Profile
 
+CURB_SERVICES = ("left_curb", "right_curb")
 _MIN_TOUCH_M = 0.01  # with tolerance 0 a "touch" still allows float noise of 1 cm
 
 
@@ -61,17 +66,20 @@ def build_network(lines: list[RawLine], profile: Profile, *, has_geometry: bool 
     Raises
     ------
     InputError
-        Empty network, a self-loop, or an unknown service value.
+        Empty network, a self-loop, an unknown service value, or a street served in one
+        pass whose curbs are posted for different times
+        (:func:`crewcut.solve.network.curbs.split_curbs`).
     """
     hint = "check that the file holds street lines (and, for OpenStreetMap, drivable highway ways)"
     if not lines:
         raise InputError(f"{source}: the network is empty: no street lines were found", hint)
     services = _resolve_services(lines, profile)
     findings = list(findings) + _duplicate_ids(lines)
+    lines, services, postings = split_curbs(lines, services, findings)
     if has_geometry:
-        net = _build_geometric(lines, services, profile, findings)
+        net = _build_geometric(lines, services, profile, findings, postings)
     else:
-        net = _build_plain(lines, services, profile, findings)
+        net = _build_plain(lines, services, profile, findings, postings)
     if net.n_segments == 0:
         raise InputError(f"{source}: the network is empty: all {len(lines)} street line(s) have zero length", hint)
     return net
@@ -103,8 +111,12 @@ def _self_loop(source_id: str, length: float) -> InputError:
 
 
 def _finish(lines, services, keep_src, u, v, coords, lengths, node_lon, node_lat, node_x, node_y,
-            node_label, has_geometry, origin, findings) -> Network:
-    """Build the Network from the kept pieces (``keep_src``: their source line per piece)."""
+            node_label, has_geometry, origin, findings, postings) -> Network:
+    """Build the Network from the kept pieces (``keep_src``: their source line per piece).
+
+    Every piece of a line carries the line's posting; ``seg_posting`` stays empty when none is posted.
+    """
+    kept = tuple(postings[i] for i in keep_src) if postings else ()
     return Network(
         node_lon=node_lon, node_lat=node_lat, node_x=node_x, node_y=node_y,
         node_label=node_label,
@@ -117,7 +129,8 @@ def _finish(lines, services, keep_src, u, v, coords, lengths, node_lon, node_lat
         seg_speed_kmh=np.array([np.nan if lines[i].speed_kmh is None else float(lines[i].speed_kmh)
                                 for i in keep_src], dtype=np.float64),
         seg_closed=np.array([bool(lines[i].closed) for i in keep_src], dtype=bool),
-        seg_coords=coords, has_geometry=has_geometry, origin=origin, findings=tuple(findings))
+        seg_coords=coords, has_geometry=has_geometry, origin=origin, findings=tuple(findings),
+        seg_posting=kept if any(p is not None for p in kept) else ())
 
 
 def _duplicate_ids(lines: list[RawLine]) -> list[Finding]:
@@ -179,6 +192,8 @@ def _clean(lines, parent, u, v, lengths, geom_key, tol, findings):
 
 def _dup_key(ln: RawLine, u: int, v: int, shape, length: float):
     """Hashable identity of a piece: ends, direction rule, shape, length (1 cm)."""
+    if ln.service in CURB_SERVICES:  # the two curbs of one street share ends and shape but are not duplicates
+        return (u, v, ln.service, shape, round(length, 2))
     if ln.oneway:
         return (u, v, True, shape, round(length, 2))
     if u > v:  # two-way: the same street drawn the other way round is a duplicate too
@@ -188,7 +203,7 @@ def _dup_key(ln: RawLine, u: int, v: int, shape, length: float):
 
 
 # ----------------------------------------------------------------------- no geometry
-def _build_plain(lines, services, profile, findings) -> Network:
+def _build_plain(lines, services, profile, findings, postings) -> Network:
     labels: dict[str, int] = {}
     m = len(lines)
     u = np.empty(m, np.int64)
@@ -212,11 +227,11 @@ def _build_plain(lines, services, profile, findings) -> Network:
     # No coordinates: lay the nodes out from path lengths, for grouping only (not maps, not turns).
     x, y = path_layout(n, u[keep], v[keep], lengths[keep])
     return _finish(lines, services, keep, u[keep], v[keep], [None] * keep.size, lengths[keep],
-                   nan, nan.copy(), x, y, list(labels), False, (0.0, 0.0), findings)
+                   nan, nan.copy(), x, y, list(labels), False, (0.0, 0.0), findings, postings)
 
 
 # -------------------------------------------------------------------- with geometry
-def _build_geometric(lines, services, profile: Profile, findings) -> Network:
+def _build_geometric(lines, services, profile: Profile, findings, postings) -> Network:
     import shapely
     from scipy.sparse import coo_matrix
     from scipy.sparse.csgraph import connected_components
@@ -348,5 +363,5 @@ def _build_geometric(lines, services, profile: Profile, findings) -> Network:
     keep = _clean(lines, parent, u, v, lengths, shape, tol, findings)
     return _finish(lines, services, parent[keep], u[keep], v[keep], [coords[i] for i in keep.tolist()],
                    lengths[keep], node_ll[:, 0].copy(), node_ll[:, 1].copy(), node_x, node_y, labels,
-                   True, origin, findings)
+                   True, origin, findings, postings)
 

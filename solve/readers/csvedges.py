@@ -4,8 +4,11 @@ The first row is a header. Required columns: ``from``, ``to`` (node labels, any
 text) and ``length_m`` (metres, greater than zero). Optional columns: ``id``
 (source id, default ``row N`` with N the file's line number), ``oneway``
 (as in GeoJSON: yes/no/-1/true/false/1/0; ``-1`` means from ``to`` to ``from``),
-``name``, ``service``, ``class``, ``speed_kmh``, ``closed``. Other columns are
-ignored. The network has no coordinates: node lon/lat are NaN and
+``name``, ``service``, ``class``, ``speed_kmh``, ``closed``, and the posted
+sweeping times ``posted``, ``posted:left``, ``posted:right`` (the GeoJSON property
+names; grammar in :mod:`crewcut.solve.calendar.postings`; left and right as seen
+from ``from`` to ``to``, swapped when ``oneway=-1`` turns the edge round). Other
+columns are ignored. The network has no coordinates: node lon/lat are NaN and
 ``has_geometry`` is False.
 """
 from __future__ import annotations
@@ -15,6 +18,7 @@ import io
 import math
 from pathlib import Path
 
+from crewcut.solve.calendar.postings import POSTED_KEYS, read_posted, swap_sides
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import Network, RawLine
 from crewcut.solve.profile import Profile
@@ -22,7 +26,7 @@ from crewcut.solve.network.repair import build_network
 from crewcut.solve.readers.geojson import parse_closed, parse_oneway, parse_service, parse_speed
 
 REQUIRED = ("from", "to", "length_m")
-OPTIONAL = ("id", "oneway", "name", "service", "class", "speed_kmh", "closed")
+OPTIONAL = ("id", "oneway", "name", "service", "class", "speed_kmh", "closed") + tuple(POSTED_KEYS.values())
 
 
 def read_csv_edges(path: str | Path, profile: Profile) -> Network:
@@ -100,12 +104,14 @@ def _parse(path: Path, reader, profile: Profile) -> Network:
             raise InputError(f"{where}: edge '{sid}' is a self-loop (from and to are both '{a}')",
                              "a street must join two different nodes; split the loop into two edges")
         oneway = parse_oneway(cell("oneway") or None, where)
+        posted = read_posted({k: cell(k) or None for k in POSTED_KEYS.values()}, f"{where}: edge '{sid}'")
         if oneway == -1:
             a, b = b, a
+            posted = swap_sides(posted)
         lines.append(RawLine(
             source_id=sid, coords=None, name=cell("name") or "", road_class=cell("class") or "",
             oneway=1 if oneway else 0, service=parse_service(cell("service"), where),
             speed_kmh=parse_speed(cell("speed_kmh") or None, where),
             closed=parse_closed(cell("closed") or None, where),
-            from_label=a, to_label=b, length_m=length))
+            from_label=a, to_label=b, length_m=length, posted=posted))
     return build_network(lines, profile, has_geometry=False, source=str(path))

@@ -11,7 +11,7 @@ Properties read from each feature (all optional):
     or ``-1`` (one-way against the drawn direction: the line is reversed), as
     OpenStreetMap writes it; JSON booleans and numbers are accepted too.
 ``service``
-    ``both_sides``, ``one_pass``, ``each_direction`` or ``none``; absent means the
+    ``both_sides``, ``one_pass``, ``each_direction``, ``right_curb``, ``left_curb`` or ``none``; absent means the
     profile's default for the road class.
 ``class``
     Road class, free text, looked up in the profile's speed and service tables.
@@ -19,6 +19,10 @@ Properties read from each feature (all optional):
     A speed cap for the street (km/h, greater than zero).
 ``closed``
     ``true`` when the street cannot be driven or served.
+``posted``, ``posted:left``, ``posted:right``
+    Posted sweeping times (``"tue 08:00-10:00"``, grammar in
+    :mod:`crewcut.solve.calendar.postings`) for the whole street or one curb, left
+    and right as seen along the drawn line (swapped when ``oneway=-1`` reverses it).
 
 Each part of a MultiLineString becomes its own line with source id ``ID/partK``
 (K counted from 1).
@@ -31,6 +35,7 @@ from pathlib import Path
 
 import numpy as np
 
+from crewcut.solve.calendar.postings import read_posted, swap_sides
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_NAMES, Network, RawLine
 from crewcut.solve.profile import SPEED_RANGE_KMH, Profile
@@ -166,6 +171,7 @@ def features_to_lines(doc, source: str) -> list[RawLine]:
             raise InputError(f"{where}: geometry is {gtype or 'missing'}, not a line",
                              "keep only LineString or MultiLineString features (streets as lines)")
         oneway = parse_oneway(props.get("oneway"), where)
+        posted = read_posted(props, where)
         common = dict(
             name="" if props.get("name") is None else str(props["name"]),
             road_class="" if props.get("class") is None else str(props["class"]),
@@ -173,6 +179,7 @@ def features_to_lines(doc, source: str) -> list[RawLine]:
             service=parse_service(props.get("service"), where),
             speed_kmh=parse_speed(props.get("speed_kmh"), where),
             closed=parse_closed(props.get("closed"), where),
+            posted=swap_sides(posted) if oneway == -1 else posted,
         )
         coords = geom.get("coordinates")
         if gtype == "LineString":

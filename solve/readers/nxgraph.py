@@ -11,6 +11,10 @@ The shape read is the common one for OpenStreetMap street graphs in Python:
   ``name``, optional ``osmid`` and an optional shapely ``geometry`` (a LineString
   from ``u`` to ``v``, whose ends are set exactly on the two nodes; without it the
   edge is the straight line between its nodes).
+  Optional posted sweeping times ``posted``, ``posted:left``, ``posted:right``
+  (the GeoJSON property names and grammar, :mod:`crewcut.solve.calendar.postings`),
+  left and right as seen along ``u -> v``; of a two-way street's pair of edges
+  the one read first speaks (NaN, as a data frame writes a missing value, counts as absent).
   ``highway``, ``name`` and ``osmid`` may be lists (a simplified edge merging
   several ways): the first ``highway`` and ``osmid`` are kept and names are joined
   with "; ".
@@ -35,6 +39,7 @@ from pathlib import Path
 
 import numpy as np
 
+from crewcut.solve.calendar.postings import POSTED_KEYS, read_posted
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import Network, RawLine
 from crewcut.solve.network.repair import build_network
@@ -143,10 +148,12 @@ def graph_to_lines(graph, source: str = "the graph") -> list[RawLine]:
         ids = _listed(data.get("osmid"))
         highway = _listed(data.get("highway"))
         names = [str(n) for n in _listed(data.get("name")) if n is not None and str(n) != "nan"]
+        posted = read_posted({k: data.get(k) for k in POSTED_KEYS.values()
+                              if not (isinstance(data.get(k), float) and math.isnan(data[k]))}, where)
         lines.append(RawLine(
             source_id=f"way/{ids[0]}" if ids else f"edge/{u}-{v}-{key}", coords=coords,
             name="; ".join(dict.fromkeys(names)), road_class=str(highway[0]) if highway else "",
-            oneway=1 if oneway else 0, from_label=f"node/{u}", to_label=f"node/{v}"))
+            oneway=1 if oneway else 0, from_label=f"node/{u}", to_label=f"node/{v}", posted=posted))
     return lines
 
 

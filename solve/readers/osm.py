@@ -52,6 +52,11 @@ way; the part beyond is left out with a warning. Every segment keeps
 OpenStreetMap topology is explicit (shared node ids), so no snapping by distance
 and no split-at-touch is applied; only nodes at identical coordinates merge.
 Road class is the highway value; service is the profile's default for it.
+
+Posted sweeping times: ``parking:both|left|right:restriction:conditional``
+(:func:`crewcut.solve.readers.osmtags.way_postings`); a way turned round for
+``oneway=-1`` has its left and right swapped. Curbs posted for different times
+become segments ``way/ID:left`` and ``way/ID:right`` (:mod:`crewcut.solve.network.curbs`).
 """
 from __future__ import annotations
 
@@ -63,6 +68,8 @@ import numpy as np
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import Finding, Network, RawLine
 from crewcut.solve.profile import Profile
+from crewcut.solve.calendar.postings import swap_sides
+from crewcut.solve.readers.osmtags import way_postings  # posted sweeping times (own line: eases merges)
 from crewcut.solve.readers.osmtags import (WayRules, rules_for, size_verdict,
                                            way_direction, way_refusal)
 from crewcut.solve.vehicle import SIZE_TAGS, Vehicle
@@ -111,7 +118,7 @@ def _collect(path: Path, rules: WayRules) -> tuple[list[tuple], dict, dict, dict
             if direction is None:  # only a walker gets here (way_refusal drops it for a motor vehicle)
                 direction = 0  # a reversible way is walked both ways
             ways.append((obj.id, np.asarray(refs, np.int64), np.column_stack([lon, lat]) if refs else None,
-                         tags.get("highway"), tags.get("name", ""), direction))
+                         tags.get("highway"), tags.get("name", ""), direction, way_postings(tags, obj.id)))
     except (RuntimeError, ValueError, OverflowError, osmium.InvalidLocationError) as exc:  # pyosmium's errors
         raise InputError(f"{path}: not a readable OpenStreetMap file ({exc})",
                          "check that the file is complete and really .osm XML or .osm.pbf; download it again") from None
@@ -162,7 +169,7 @@ def read_osm(path: str | Path, profile: Profile) -> Network:
     # drop consecutive repeats and break ways at nodes without a location
     runs = []
     cut_ways = []
-    for wid, refs, ll, hw, name, direction in ways:
+    for wid, refs, ll, hw, name, direction, posted in ways:
         if refs.size < 2:
             continue
         keep = np.ones(refs.size, bool)
@@ -174,7 +181,7 @@ def read_osm(path: str | Path, profile: Profile) -> Network:
         breaks = np.flatnonzero(np.diff(valid.astype(np.int8)) != 0) + 1
         for a, b in zip(np.r_[0, breaks], np.r_[breaks, refs.size]):
             if valid[a] and b - a >= 2:
-                runs.append((wid, refs[a:b], ll[a:b], hw, name, direction))
+                runs.append((wid, refs[a:b], ll[a:b], hw, name, direction, posted))
     if cut_ways:
         findings.append(Finding(
             "warning", f"way/{cut_ways[0]}",
@@ -187,9 +194,10 @@ def read_osm(path: str | Path, profile: Profile) -> Network:
     uniq, counts = np.unique(all_refs, return_counts=True)
     junction = set(uniq[counts >= 2].tolist())
     lines: list[RawLine] = []
-    for wid, refs, ll, hw, name, direction in runs:
+    for wid, refs, ll, hw, name, direction, posted in runs:
         if direction == -1:
             refs, ll = refs[::-1], ll[::-1]
+            posted = swap_sides(posted)
         k = refs.size
         cuts = [0] + [i for i in range(1, k - 1) if int(refs[i]) in junction] + [k - 1]
         for a, b in zip(cuts[:-1], cuts[1:]):
@@ -202,7 +210,7 @@ def read_osm(path: str | Path, profile: Profile) -> Network:
             for s, e in pieces:
                 lines.append(RawLine(
                     source_id=f"way/{wid}", coords=ll[s:e + 1].copy(), name=name, road_class=hw,
-                    oneway=1 if direction else 0, from_label=f"node/{int(refs[s])}",
+                    oneway=1 if direction else 0, posted=posted, from_label=f"node/{int(refs[s])}",
                     to_label=f"node/{int(refs[e])}"))
     exact = dataclasses.replace(profile, snap_tolerance_m=0.0, split_at_touch=False)
     return build_network(lines, exact, findings=findings, source=str(path))

@@ -1,4 +1,4 @@
-"""OpenStreetMap tags read as rules for one vehicle: access, service kind, direction, size limits.
+"""OpenStreetMap tags read as rules for one vehicle: access, service kind, direction, size limits, postings.
 
 The rules are written out in :mod:`crewcut.solve.readers.osm`'s docstring; this
 module applies them to one way's tags (an ``osmium`` TagList or a dict).
@@ -8,6 +8,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
+from crewcut.solve.calendar.postings import OSM_POSTED_KEYS, Posting, read_posted
 from crewcut.solve.vehicle import SIZE_TAGS, Vehicle
 
 ONEWAY_YES = ("yes", "1", "true")
@@ -135,3 +136,15 @@ def way_refusal(tags, rules: WayRules) -> str | None:
     if rules.vehicle.kind == "motor" and way_direction(tags) is None:
         return f"oneway={tags.get('oneway')}"
     return None
+
+
+def way_postings(tags, way_id: int) -> dict[str, Posting]:
+    """Posted sweeping times of a way, keyed ``"both"``/``"left"``/``"right"`` as drawn.
+
+    Read from ``parking:both|left|right:restriction:conditional`` (``no_parking @ (Tu 08:00-10:00)``;
+    OpenStreetMap wiki "Key:parking": left and right are relative to the way's drawn direction,
+    so the reader swaps them when it turns an ``oneway=-1`` way round). InputError names the way and the tag.
+    """
+    if not any(tags.get(k) is not None for k in OSM_POSTED_KEYS.values()):
+        return {}
+    return read_posted(tags, f"way/{way_id}", OSM_POSTED_KEYS, conditional=True)
