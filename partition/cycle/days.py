@@ -71,7 +71,7 @@ def split_days(net: Network, sg: StreetGraph, router: Router, *, depot: int, lim
         eligible[i, mask & (pinned == i)] = True
     owner = np.full(m, -1, np.int64)
     owner[mask & (pinned >= 0)] = pinned[mask & (pinned >= 0)]
-    _grow(net, sub, owner, eligible, d, seed, crew_id)
+    grow_days(net, sub, owner, eligible, np.arange(d), seed, crew_id)
     terr = territories_of(owner, d)
     routes = router.route_many([RouteJob.of(depot, terr[i], seed) for i in range(d)])
     state = FleetState(owner=owner, routes=list(routes), depots=[depot] * d, limits=np.full(d, float(limit_min)))
@@ -83,42 +83,54 @@ def split_days(net: Network, sg: StreetGraph, router: Router, *, depot: int, lim
     return CrewWeek(days, out, state.owner, bal)
 
 
-def _grow(net: Network, sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, d: int, seed: int,
-          crew_id: str) -> None:
-    """Grow every day over free neighbouring streets, least loaded first (in place)."""
+def grow_days(net: Network, sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, active, seed: int,
+              crew_id: str, credit: dict[int, float] | None = None) -> None:
+    """Grow the routes ``active`` (row ids of ``eligible``) over free required streets, least loaded first.
+
+    In place on ``owner``. Routes that own nothing yet get k-means centres over the free
+    streets (and the nearest free street as a seed); the others grow from what they own.
+    Streets no route could take join a neighbouring route that may serve them, else the
+    least loaded route that may, else an :class:`InputError` names them. ``credit``: minutes
+    a route may take beyond its load (time it would otherwise wait for a posted window).
+    """
+    active = [int(a) for a in np.asarray(active).tolist()]
     est = sg.work * (1.0 + DEADHEAD_ALLOWANCE)
-    free = np.flatnonzero(sg.required & (owner < 0))
-    load = np.array([est[owner == i].sum() for i in range(d)])
-    centres = np.zeros((d, 2))
-    empty = [i for i in range(d) if not (owner == i).any()]
-    for i in range(d):
+    can = eligible[active].any(axis=0)
+    free = np.flatnonzero(sg.required & (owner < 0) & can)
+    load = {i: float(est[owner == i].sum()) - (credit or {}).get(i, 0.0) for i in active}
+    centres = {}
+    empty = [i for i in active if not (owner == i).any()]
+    for i in active:
         if i not in empty:
             segs = np.flatnonzero(owner == i)
             centres[i] = np.average(np.stack([sg.mid_x[segs], sg.mid_y[segs]], 1), axis=0,
                                     weights=np.maximum(est[segs], 1e-6))
-    fronts: list[list] = [[] for _ in range(d)]
+    fronts: dict[int, list] = {i: [] for i in active}
     if empty and free.size:
         x = np.stack([sg.mid_x[free], sg.mid_y[free]], axis=1)
         n = min(len(empty), free.size)
         km = KMeans(n_clusters=n, init="k-means++", n_init=4, random_state=seed)
         km.fit(x, sample_weight=np.maximum(est[free], 1e-6))
         cc = km.cluster_centers_
-        # days in cycle order get centres in a fixed order around the territory: west to east, then south to north
+        # routes in order get centres in a fixed order across the area: west to east, then south to north
         cc = cc[np.lexsort((cc[:, 1], cc[:, 0]))]
         taken: set[int] = set()
         for j, i in enumerate(empty[:n]):
             centres[i] = cc[j]
-            dist = np.hypot(sg.mid_x[free] - cc[j, 0], sg.mid_y[free] - cc[j, 1])
-            for s in free[np.lexsort((free, dist))].tolist():
-                if s not in taken:
+            ok = free[eligible[i, free]]
+            dist = np.hypot(sg.mid_x[ok] - cc[j, 0], sg.mid_y[ok] - cc[j, 1])
+            for s in ok[np.lexsort((ok, dist))].tolist():
+                if s not in taken and owner[s] < 0:
                     taken.add(s)
                     owner[s] = i
                     load[i] += est[s]
                     break
-    for i in range(d):
+    for i in active:
+        if i not in centres:
+            centres[i] = np.array([sg.mid_x[free].mean(), sg.mid_y[free].mean()]) if free.size else np.zeros(2)
         for s in np.flatnonzero(owner == i).tolist():
-            _push(sg, s, i, owner, centres, fronts[i])
-    turn = [(float(load[i]), i) for i in range(d) if fronts[i]]
+            _push(sg, s, centres[i], owner, fronts[i])
+    turn = [(load[i], i) for i in active if fronts[i]]
     heapq.heapify(turn)
     while turn:
         _, i = heapq.heappop(turn)
@@ -132,27 +144,28 @@ def _grow(net: Network, sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray
             continue
         owner[got] = i
         load[i] += est[got]
-        _push(sg, got, i, owner, centres, fronts[i])
-        heapq.heappush(turn, (float(load[i]), i))
+        _push(sg, got, centres[i], owner, fronts[i])
+        heapq.heappush(turn, (load[i], i))
     left = np.flatnonzero(sg.required & (owner < 0))
     if left.size:
         attach_leftovers(sg, owner, eligible, left)
         left = np.flatnonzero(sg.required & (owner < 0))
-    for s in left.tolist():  # no neighbouring day may take it: the least loaded day that may, not contiguous
-        ok = np.flatnonzero(eligible[:, s])
+    act = np.array(active)
+    for s in left.tolist():  # no neighbouring route may take it: the least loaded route that may, not contiguous
+        ok = act[eligible[act, s]]
         if ok.size == 0:
             raise InputError(f"crew '{crew_id}': segment {s} ({describe_segment(net, np.array([s]))}) has no "
                              "working day it may be served on", "check the street's posted day and the crew's days off")
-        i = int(ok[np.argmin(load[ok])])
+        i = int(min(ok.tolist(), key=lambda a: (load[a], a)))
         owner[s] = i
         load[i] += est[s]
 
 
-def _push(sg: StreetGraph, s: int, i: int, owner: np.ndarray, centres: np.ndarray, front: list) -> None:
+def _push(sg: StreetGraph, s: int, centre: np.ndarray, owner: np.ndarray, front: list) -> None:
     nb = sg.neighbours(s)
     nb = nb[owner[nb] < 0]
     if nb.size == 0:
         return
-    dist = np.hypot(sg.mid_x[nb] - centres[i, 0], sg.mid_y[nb] - centres[i, 1])
+    dist = np.hypot(sg.mid_x[nb] - centre[0], sg.mid_y[nb] - centre[1])
     for dd, t in zip(dist.tolist(), nb.tolist()):
         heapq.heappush(front, (dd, t))

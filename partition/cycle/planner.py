@@ -11,6 +11,8 @@ A heuristic with a proven lower bound, never a claim of optimality.
 
 Method
 ------
+Where no street is posted:
+
 1. Territories (:func:`crewcut.fleet.planner.lay_out_territories`) for crews whose
    limit is a whole cycle's (shift limit x working days); a street posted for a
    day a crew does not work is not eligible for that crew. Routed and balanced as
@@ -18,7 +20,11 @@ Method
    whole territory stands for the crew's cycle.
 2. Each territory split into days (:func:`crewcut.cycle.days.split_days`), routed
    with clock times and posted windows, balanced between days.
-3. Lower bound: :func:`crewcut.solve.postman.bounds.fleet_lower_bound` for as many
+Where streets are posted, a posted district is swept by as many crews as its day
+and window need, so each crew-day is laid out on its own instead
+(:mod:`crewcut.cycle.byday`); crews keep nearby regions from day to day.
+
+Lower bound: :func:`crewcut.solve.postman.bounds.fleet_lower_bound` for as many
    crews as there are crew-days, each at its crew's depot: no day can be shorter
    than the work spread over all of them, nor than the longest round trip.
 """
@@ -30,6 +36,7 @@ import numpy as np
 
 from crewcut.solve.calendar.clock import window_misses
 from crewcut.solve.calendar.cycle import Cycle
+from crewcut.solve.calendar.postings import clock
 from crewcut.solve.calendar.dayroute import posted_windows
 from crewcut.solve.costs import required_passes, service_minutes
 from crewcut.solve.errors import InputError
@@ -37,10 +44,11 @@ from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Crew, Profile
 from crewcut.solve.readers.area import ServiceArea
 
+from crewcut.cycle.byday import plan_by_day
 from crewcut.cycle.days import split_days
 from crewcut.fleet.assemble import crews_needed, route_and_balance
 from crewcut.fleet.executor import LocalRouter, check_workers
-from crewcut.fleet.planner import lay_out_territories, plan_checks
+from crewcut.fleet.planner import crews_reach, lay_out_territories, plan_checks
 from crewcut.fleet.progress import ProgressFn, with_log
 from crewcut.fleet.territories import territories_of
 from crewcut.plans.model import BalanceLimits, CrewPlan, FleetSummary, OverLimit, Plan, RunOptions, recorded_crew
@@ -99,14 +107,45 @@ def plan_cycle(net: Network, profile: Profile, crews: list[Crew], cycle: Cycle, 
     for i, days in enumerate(working):
         off = [cycle.index(d) for d in cycle.days if d not in days]
         allowed[i, np.isin(pinned, off)] = False
+    if (pinned >= 0).any():
+        plans, scope, net = _by_day(net, profile, crews, cycle, working, pinned, allowed, seed=seed, workers=workers,
+                                    time_limit_s=time_limit_s, tolerance=tolerance, max_iterations=max_iterations,
+                                    route_time_limit_s=route_time_limit_s, report=report, area=area,
+                                    unservable=unservable)
+    else:
+        plans, scope, net = _territories_first(net, profile, crews, cycle, working, pinned, allowed, seed=seed,
+                                               workers=workers, time_limit_s=time_limit_s, tolerance=tolerance,
+                                               max_iterations=max_iterations, day_tolerance=day_tolerance,
+                                               route_time_limit_s=route_time_limit_s, report=report, area=area,
+                                               unservable=unservable)
+    report("lower bound", 0, 1)
+    from crewcut.solve.postman.bounds import fleet_lower_bound
+
+    day_depots = [int(c.depot_node) for i, c in enumerate(crews) for _ in working[i]]
+    lb = float(fleet_lower_bound(net, profile, day_depots, len(day_depots)))
+    report("lower bound", 1, 1)
+    summary = cycle_summary(net, plans, working, lb)
+    options = RunOptions(seed=int(seed), crews=tuple(recorded_crew(c) for c in crews),
+                         balance=BalanceLimits(float(tolerance), int(max_iterations),
+                                               None if time_limit_s is None else float(time_limit_s)),
+                         route_time_limit_s=float(route_time_limit_s), unservable=scope.unservable,
+                         area=scope.area, cycle=cycle)
+    return build_plan(net, profile, plans, source=source, options=options, summary=summary,
+                      left_out=scope.left_out)
+
+
+def _territories_first(net, profile, crews, cycle, working, pinned, allowed, *, seed, workers, time_limit_s,
+                       tolerance, max_iterations, day_tolerance, route_time_limit_s, report, area, unservable):
+    """Method steps 1 and 2: territories for a cycle's work, then each split into days."""
+    k, m = len(crews), net.n_segments
     weekly = [replace(c, shift_limit_min=c.shift_limit_min * len(working[i])) for i, c in enumerate(crews)]
     lay = lay_out_territories(net, profile, weekly, seed=seed, progress=report, area=area, unservable=unservable,
                               allowed=allowed)
     net = lay.net
     with LocalRouter(net, profile, workers=workers, time_limit_s=route_time_limit_s) as router:
-        state, bal = route_and_balance(router, lay.sg, lay.eligible, weekly, lay.owner, seed=seed,
-                                       tolerance=tolerance, max_iterations=max_iterations,
-                                       time_limit_s=time_limit_s, progress=report, border=lay.border)
+        state, _bal = route_and_balance(router, lay.sg, lay.eligible, weekly, lay.owner, seed=seed,
+                                        tolerance=tolerance, max_iterations=max_iterations,
+                                        time_limit_s=time_limit_s, progress=report, border=lay.border)
     terr = territories_of(state.owner, k)
     plans = []
     with LocalRouter(net, profile, workers=workers, time_limit_s=route_time_limit_s,
@@ -123,20 +162,29 @@ def plan_cycle(net: Network, profile: Profile, crews: list[Crew], cycle: Cycle, 
             routes = tuple(r for r in week.routes if r.traversals)
             plans.append(CrewPlan(crew=c, territory=tuple(terr[i].tolist()), routes=routes))
         report("days", k, k)
-    report("lower bound", 0, 1)
-    from crewcut.solve.postman.bounds import fleet_lower_bound
+    return plans, lay.scope, net
 
-    day_depots = [int(c.depot_node) for i, c in enumerate(crews) for _ in working[i]]
-    lb = float(fleet_lower_bound(net, profile, day_depots, len(day_depots)))
-    report("lower bound", 1, 1)
-    summary = cycle_summary(net, plans, working, lb)
-    options = RunOptions(seed=int(seed), crews=tuple(recorded_crew(c) for c in crews),
-                         balance=BalanceLimits(float(tolerance), int(max_iterations),
-                                               None if time_limit_s is None else float(time_limit_s)),
-                         route_time_limit_s=float(route_time_limit_s), unservable=lay.scope.unservable,
-                         area=lay.scope.area, cycle=cycle)
-    return build_plan(net, profile, plans, source=source, options=options, summary=summary,
-                      left_out=lay.scope.left_out)
+
+def _by_day(net, profile, crews, cycle, working, pinned, allowed, *, seed, workers, time_limit_s, tolerance,
+            max_iterations, route_time_limit_s, report, area, unservable):
+    """Where streets are posted: a region per crew-day (:mod:`crewcut.cycle.byday`)."""
+    reach = crews_reach(net, profile, crews, area=area, unservable=unservable, allowed=allowed)
+    net = reach.net
+    report("territories", 0, 1)
+    with LocalRouter(net, profile, workers=workers, time_limit_s=route_time_limit_s,
+                     start_min=cycle.shift_start_min) as router:
+        out = plan_by_day(net, reach.sg, router, crews, working, cycle.days, pinned, reach.eligible,
+                          start_min=cycle.shift_start_min, seed=seed,
+                          tolerance=tolerance, max_iterations=max_iterations, time_limit_s=time_limit_s,
+                          progress=report)
+    report("territories", 1, 1)
+    plans = []
+    for i, c in enumerate(crews):
+        idx = [t for t, (ci, _d) in enumerate(out.slots) if ci == i]
+        routes = tuple(out.routes[t] for t in idx if out.routes[t].traversals)
+        terr = np.flatnonzero(np.isin(out.owner, idx))
+        plans.append(CrewPlan(crew=c, territory=tuple(terr.tolist()), routes=routes))
+    return plans, reach.scope, net
 
 
 def _working_days(crews: list[Crew], cycle: Cycle) -> list[tuple[str, ...]]:
@@ -161,12 +209,27 @@ def _check_day_capacity(net, profile, crews, cycle, working, pinned) -> None:
         on = pinned == j
         if not on.any():
             continue
-        cap = sum(c.shift_limit_min for c, days in zip(crews, working) if d in days)
+        crews_on = [c for c, days in zip(crews, working) if d in days]
+        cap = sum(c.shift_limit_min for c in crews_on)
         need = float(work[on].sum())
         if need > cap + 1e-9:
             who = "no crew works that day" if cap == 0 else f"the crews working that day have {cap:,.0f} min"
             raise InputError(f"{int(on.sum())} street(s) posted for {d} need {need:,.1f} min of service; {who}",
                              f"post some of them for another day, or add crews (or working days) on {d}")
+        by_window: dict[tuple[int, int], list[int]] = {}
+        for s in np.flatnonzero(on).tolist():
+            p = net.posting(s)
+            if p.has_window:
+                by_window.setdefault((p.open_min, p.close_min), []).append(s)
+        for (lo, hi), segs in sorted(by_window.items()):
+            need = float(work[segs].sum())
+            room = sum(min(hi - lo, c.shift_limit_min) for c in crews_on)
+            if need > room + 1e-9:
+                raise InputError(
+                    f"{len(segs)} street(s) posted for {d} {clock(lo)}-{clock(hi)} need {need:,.1f} min of service "
+                    f"inside that window; the {len(crews_on)} crew(s) working {d} have {room:,.0f} min in it "
+                    f"(first: segment {segs[0]}, '{net.seg_source[segs[0]]}')",
+                    "widen the window, post some of the streets for another window or day, or add crews that day")
 
 
 def cycle_summary(net: Network, plans: list[CrewPlan], working: list[tuple[str, ...]], lb: float) -> FleetSummary:

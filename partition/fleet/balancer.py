@@ -31,7 +31,9 @@ over mean, an iteration limit, a time limit, or when no pair improves.
 An optional ``move_cost(c, n, give, take)`` charges a move (in shares of a shift
 limit, clamped at 0): the move is kept only when the new larger share plus the
 charge is still below the old one. Rebalancing uses it to make segments that
-leave their old crew cost something; without it the balancer is unchanged.
+leave their old crew cost something; without it the balancer is unchanged. A move
+whose routes serve more passes outside their posted windows (cycle plans, the
+routes' ``stats["window_misses"]``) is never kept.
 """
 from __future__ import annotations
 
@@ -286,6 +288,11 @@ def _centre(sg: StreetGraph, segs: np.ndarray) -> tuple[float, float]:
     return float(np.average(sg.mid_x[segs], weights=w)), float(np.average(sg.mid_y[segs], weights=w))
 
 
+def _misses(route: Route) -> int:
+    """Passes a route serves outside their posted windows (0 for routes without a clock)."""
+    return int(route.stats.get("window_misses", 0)) if route.stats else 0
+
+
 def _apply_if_better(state: FleetState, sg: StreetGraph, router: Router, c: int, n: int, give: np.ndarray,
                      take: np.ndarray, old: float, seed: int, rep: BalanceReport, cost: float = 0.0) -> bool:
     owner = state.owner.copy()
@@ -300,6 +307,8 @@ def _apply_if_better(state: FleetState, sg: StreetGraph, router: Router, c: int,
     r_c, r_n = router.route_many(jobs)
     rep.territories_routed += 2
     new = max(r_c.totals.total_min / state.limits[c], r_n.totals.total_min / state.limits[n])
+    if _misses(r_c) + _misses(r_n) > _misses(state.routes[c]) + _misses(state.routes[n]):
+        return False  # cycle plans: never trade a posted window for a shorter day
     if new < old - 1e-9 and new + cost < old - 1e-9:
         state.owner[:] = owner
         state.routes[c], state.routes[n] = r_c, r_n

@@ -106,15 +106,24 @@ class Layout:
     scope: ServiceScope
 
 
-def lay_out_territories(net: Network, profile: Profile, crews: list[Crew], *, seed: int = 0,
-                        progress: ProgressFn | None = None, area: ServiceArea | None = None,
-                        unservable: str | None = None, allowed: np.ndarray | None = None) -> Layout:
-    """Steps 1 and 2 of the module's method: the scope, seeds, connected territories, polished borders.
+@dataclass(frozen=True)
+class Reach:
+    """What every layout starts from: the scope, the network in scope, its street graph, who can reach what."""
+
+    net: Network
+    sg: StreetGraph
+    eligible: np.ndarray  # (k, m) bool
+    round_trip_min: np.ndarray  # (k, m) depot -> segment -> depot minutes
+    scope: ServiceScope
+
+
+def crews_reach(net: Network, profile: Profile, crews: list[Crew], *, area: ServiceArea | None = None,
+                unservable: str | None = None, allowed: np.ndarray | None = None) -> Reach:
+    """The scope, the street graph and which crew may serve which segment (checked: every one by some crew).
 
     ``allowed``: optional (k, m) bool, False where a crew may not serve a segment whatever its reach
     (a street posted for a day the crew does not work); None: every crew may serve every segment.
     """
-    report = _progress(progress)
     scope = run_scope(net, profile, [int(c.depot_node) for c in crews], area, unservable)
     net = scope.network
     sg = build_street_graph(net, profile)
@@ -131,6 +140,20 @@ def lay_out_territories(net: Network, profile: Profile, crews: list[Crew], *, se
     if allowed is not None:
         eligible &= allowed
     _check_reach(net, sg, crews, eligible, rt)
+    return Reach(net, sg, eligible, rt, scope)
+
+
+def lay_out_territories(net: Network, profile: Profile, crews: list[Crew], *, seed: int = 0,
+                        progress: ProgressFn | None = None, area: ServiceArea | None = None,
+                        unservable: str | None = None, allowed: np.ndarray | None = None) -> Layout:
+    """Steps 1 and 2 of the module's method: the scope, seeds, connected territories, polished borders.
+
+    ``allowed``: as for :func:`crews_reach`.
+    """
+    report = _progress(progress)
+    r = crews_reach(net, profile, crews, area=area, unservable=unservable, allowed=allowed)
+    net, sg, eligible, rt = r.net, r.sg, r.eligible, r.round_trip_min
+    depots = [int(c.depot_node) for c in crews]
     report("territories", 0, 1)
     depot_xy = np.stack([net.node_x[depots], net.node_y[depots]], axis=1)
     centres, seeds = seed_territories(sg, depot_xy, eligible, seed=seed)
@@ -140,7 +163,7 @@ def lay_out_territories(net: Network, profile: Profile, crews: list[Crew], *, se
     border = BorderTurns(net, sg, TurnModel.from_network(net, profile))
     polish_borders(net, sg, owner, eligible, border)
     report("territories", 1, 1)
-    return Layout(net, sg, eligible, owner, border, scope)
+    return Layout(net, sg, eligible, owner, border, r.scope)
 
 
 def plan_checks(crews, seed, time_limit_s, tolerance, max_iterations) -> None:

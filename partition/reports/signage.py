@@ -51,15 +51,15 @@ def signage_rows(plan: Plan) -> list[dict]:
                 if not x.service:
                     continue
                 rec = segs[x.segment]
-                posted = getattr(rec, "posted", None)
+                posted = rec.posted
                 key = (route.day, crew.id, rec.name, _feature(rec.source_id), SIDES.get(rec.service, "both"))
                 span = spans.setdefault(key, [math.inf, -math.inf, posted])
                 span[0] = min(span[0], float(tm.drive_start[i]))
                 span[1] = max(span[1], float(tm.drive_end[i]))
     rows = []
     for (day, crew, name, feature, side), (lo, hi, posted) in spans.items():
-        if posted is not None and posted.has_window:
-            window, basis = posted.window_text(), "posted"
+        if posted is not None and posted.window:
+            window, basis = posted.window, "posted"
         else:
             window = f"{clock(60 * math.floor(lo / 60))}-{clock(60 * max(math.ceil(hi / 60), math.floor(lo / 60) + 1))}"
             basis = "posted" if posted is not None else "proposed"
