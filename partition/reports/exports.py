@@ -3,7 +3,9 @@
 * GeoJSON (RFC 7946: WGS84 lon/lat positions, no "crs" member): one Feature per
   crew territory (MultiLineString of its segments) and one per route (a single
   continuous LineString through the traversals in driving order), with
-  properties naming the crew and its totals.
+  properties naming the crew and its totals. Cycle plans add each route's day and
+  clock start, and one Feature per served pass (``kind: "pass"``: crew, day, step,
+  clock times from and to, the posted window or null).
 * GPX 1.1 (namespace http://www.topografix.com/GPX/1/1): a ``<wpt>`` at each
   crew's depot and one ``<trk>`` per crew route, track points in driving order,
   for in-cab devices (a track is followed as drawn; a GPX route would be
@@ -29,6 +31,8 @@ import csv
 import io
 import json
 
+from crewcut.solve.calendar.clock import timing
+from crewcut.solve.calendar.postings import clock
 from crewcut.solve.network.scope import REASONS
 
 from crewcut.plans.model import Plan, route_id
@@ -47,8 +51,23 @@ def _totals(route: Route) -> dict:
     steps = route.traversals
     return {"service_km": round(sum(s.metres for s in steps if s.service) / 1000.0, 4),
             "deadhead_km": round(sum(s.metres for s in steps if not s.service) / 1000.0, 4),
-            "total_min": round(sum(s.minutes + s.turn_minutes for s in steps), 4),
+            "total_min": round(sum(s.minutes + s.turn_minutes + s.wait_minutes for s in steps), 4),
             "traversals": len(steps)}
+
+
+def _pass_features(pv: PlanView, crew: str, rid: str, r: Route) -> list[dict]:
+    tm = timing(r.traversals, r.start_min or 0.0)
+    out = []
+    for j, x in enumerate(r.traversals):
+        if not x.service:
+            continue
+        rec = pv.segments[x.segment]
+        out.append({"type": "Feature", "geometry": {"type": "LineString", "coordinates": [
+            _pos(p) for p in pv.seg_coords(x.segment, x.from_node)]}, "properties": {
+            "kind": "pass", "crew": crew, "route": rid, "day": r.day, "step": j + 1, "segment": x.segment,
+            "source_id": rec.source_id, "name": rec.name, "from": clock(tm.drive_start[j]),
+            "to": clock(tm.drive_end[j]), "posted_window": rec.posted.window if rec.posted else None}})
+    return out
 
 
 def to_geojson(pv: Plan | PlanView) -> str:
@@ -68,8 +87,13 @@ def to_geojson(pv: Plan | PlanView) -> str:
         for i, r in enumerate(c.routes):
             line = [_pos(p) for p in pv.route_coords(r)]
             geom = {"type": "LineString", "coordinates": line} if len(line) >= 2 else None
+            day = {} if r.day is None else {"day": r.day, "start": clock(r.start_min)}
             feats.append({"type": "Feature", "geometry": geom, "properties": {
-                "kind": "route", "crew": c.id, "route": route_id(i), **_totals(r)}})
+                "kind": "route", "crew": c.id, "route": route_id(i), **day, **_totals(r)}})
+    for c in pv.crews:  # cycle plans: every pass with its day, clock times and posted window
+        for i, r in enumerate(c.routes):
+            if r.day is not None:
+                feats += _pass_features(pv, c.id, route_id(i), r)
     for x in pv.plan.left_out or ():  # never silent: each street no crew serves, with its reason
         coords = [_pos(p) for p in pv.seg_coords(x.segment)]
         feats.append({"type": "Feature", "geometry": {"type": "LineString", "coordinates": coords}, "properties": {

@@ -280,3 +280,23 @@ def route_map(pv: Plan | PlanView, crew: CrewPlan, standalone: bool = True) -> S
     shift = sum(st.minutes + st.turn_minutes for r in crew.routes for st in r.traversals)
     body.append(_legend_row(y + 108, "", f"shift {shift / 60:.2f} h", esc))
     return _svg(WIDTH + LEGEND_W, max(fr.height, 240), body, f"Route - {crew.id}", standalone, esc)
+
+
+# ------------------------------------------------------------------ shared with the other maps
+def frame_of(pv: PlanView) -> _Frame:
+    """The drawing frame of a plan's whole network (what every whole-town map uses)."""
+    return _Frame(pv)
+
+
+def path_of(fr: _Frame, s: int) -> str:
+    """SVG path data of segment ``s`` in a frame."""
+    return _path(fr.seg(s))
+
+
+def legend_row(y: float, swatch: str, text: str, esc: XmlEscaper) -> str:
+    return _legend_row(y, swatch, text, esc)
+
+
+def svg_doc(width: int, height: int, body: list[str], title: str, standalone: bool, esc: XmlEscaper) -> SafeText:
+    """A whole SVG document (title, caution line, white ground) around ``body``."""
+    return _svg(width, height, body, title, standalone, esc)
