@@ -236,3 +236,76 @@ def test_a_small_cycle_against_the_exact_cp_sat_optimum():
     assert plan.summary.lower_bound_min <= exact + 1e-3  # the bound never exceeds the optimum
     assert longest >= exact - 1e-3  # and no plan beats it
     assert longest <= 1.35 * exact, (longest, exact)  # the heuristic stays near it on this case
+
+
+# ------------------------------------------------------------------ bad input at the command line
+@pytest.mark.parametrize("props, feature_id, words", [
+    ({"posted": "sat 08:00-10:00"}, "e0_0", "not in the cycle"),
+    ({"posted": "mon 08:00-08:01"}, "e0_0", "lasts 1 min"),
+    ({"posted": "mon 10:00-08:00"}, "e0_0", "ends before it starts"),
+    ({"posted": "tue 8 to 10"}, "e0_0", "cannot be read"),
+])
+def test_plan_refuses_postings_it_cannot_honour(tmp_path, capsys, monkeypatch, props, feature_id, words):
+    from crewcut.cli.main import main
+    from helpers.geojson import grid, offset, write
+
+    monkeypatch.setenv("COLUMNS", "200")
+    doc = grid(4, 3, spacing=300.0)
+    for f in doc["features"]:
+        if f["properties"]["id"] == feature_id:
+            f["properties"].update(props)
+    net = write(tmp_path / "town.geojson", doc)
+    before = net.read_bytes()
+    out = tmp_path / "out"
+    lon, lat = offset(0, 0)
+    code = main(["plan", str(net), "--crews", "1", "--depot", f"{lon},{lat}", "--days", "mon,tue,wed",
+                 "--out", str(out)])
+    err = capsys.readouterr().err
+    assert code == 2 and words in err and feature_id in err and "Traceback" not in err, err
+    assert not out.exists() or not any(out.iterdir())  # nothing written
+    assert net.read_bytes() == before  # the input is never modified
+
+
+def test_plan_refuses_more_posted_work_on_a_day_than_its_crews_hold(tmp_path, capsys):
+    from crewcut.cli.main import main
+    from helpers.geojson import grid, offset, write
+
+    doc = grid(6, 5, spacing=400.0, posted="tue 08:00-09:00")
+    net = write(tmp_path / "town.geojson", doc)
+    lon, lat = offset(0, 0)
+    code = main(["plan", str(net), "--crews", "1", "--depot", f"{lon},{lat}", "--days", "mon,tue",
+                 "--out", str(tmp_path / "out")])
+    err = capsys.readouterr().err
+    assert code == 2 and "posted for tue" in err and "fix:" in err, err
+    assert not (tmp_path / "out" / "plan.json").exists()
+
+
+def test_plan_a_cycle_from_the_command_line_and_verify_it(tmp_path, capsys):
+    from crewcut.cli.main import main
+    from helpers.geojson import grid, offset, write
+
+    doc = grid(5, 4, spacing=200.0)
+    doc["features"][0]["properties"]["posted:left"] = "tue 08:00-12:00"
+    doc["features"][0]["properties"]["posted:right"] = "wed"
+    net = write(tmp_path / "town.geojson", doc)
+    lon, lat = offset(0, 0)
+    out = tmp_path / "out"
+    assert main(["plan", str(net), "--crews", "2", "--depot", f"{lon},{lat}", "--days", "mon,tue,wed",
+                 "--shift-start", "07:00", "--out", str(out)]) == 0
+    assert main(["verify", str(out / "plan.json"), str(net)]) == 0
+    doc_plan = json.loads((out / "plan.json").read_text())
+    post = {}
+    segs = doc_plan["network"]["segments"]
+    for s in segs:
+        if s.get("posted"):
+            w = s["posted"].get("window", "")
+            lo = hi = None
+            if w:
+                lo, hi = (int(t[:2]) * 60 + int(t[3:]) for t in w.split("-"))
+            post[s["id"]] = Posting(s["posted"]["day"], lo, hi)
+    assert len(post) == 2  # the street became two curb segments, each with its own posting
+    check_cycle_plan(doc_plan, post)
+    rows = (out / "signage.csv").read_text().splitlines()
+    assert rows[0] == "street,feature,side,day,window,crew,basis"
+    assert any(",left,tue,08:00-12:00," in r and r.endswith(",posted") for r in rows), rows[:5]
+    capsys.readouterr()
