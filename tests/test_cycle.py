@@ -309,3 +309,31 @@ def test_plan_a_cycle_from_the_command_line_and_verify_it(tmp_path, capsys):
     assert rows[0] == "street,feature,side,day,window,crew,basis"
     assert any(",left,tue,08:00-12:00," in r and r.endswith(",posted") for r in rows), rows[:5]
     capsys.readouterr()
+
+
+# ------------------------------------------------------------------ rebalance by day
+def test_a_crew_absent_on_one_day_changes_that_day_only():
+    from crewcut.cycle.replan_day import replan_day
+    from crewcut.fleet.changes import Changes
+
+    profile = Profile()
+    net = repaired_grid(8, 6, 11, profile)
+    need = np.flatnonzero(required_passes(net, profile).total > 0)
+    post = [None] * net.n_segments
+    for s in need[::7].tolist():
+        post[s] = Posting("tue", 8 * 60, 12 * 60)
+    net = dataclasses.replace(net, seg_posting=tuple(post))
+    plan = plan_cycle(net, profile, _crews(net, 3), WEEK, seed=2, workers=1, max_iterations=40)
+    new = replan_day(plan, net, Changes(absent=("c2",)), "tue", profile=profile, workers=1)
+    for old_c, new_c in zip(plan.crews, new.crews):
+        for d in ("mon", "wed"):  # other days keep their routes, step for step
+            assert [r for r in old_c.routes if r.day == d] == [r for r in new_c.routes if r.day == d]
+    assert all(r.day != "tue" for r in new.crew("c2").routes)
+    doc = json.loads(plan_to_json(new))
+    check_cycle_plan(doc, {s: p for s, p in enumerate(post) if p is not None})  # posted streets still on tue
+    assert verify_plan(new, net, profile).valid
+    assert any(ch.kind == "absent" and ch.day == "tue" for ch in new.history.changes)
+    # what c2 served on tuesday is now served by the others on tuesday, never on another day
+    old_tue = {x.segment for r in plan.crew("c2").routes if r.day == "tue" for x in r.traversals if x.service}
+    new_tue = {x.segment for c in new.crews for r in c.routes if r.day == "tue" for x in r.traversals if x.service}
+    assert old_tue <= new_tue

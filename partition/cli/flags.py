@@ -32,6 +32,7 @@ FLAGS: dict[str, str] = {
     "unservable": "--unservable",
     "days": "--days",
     "shift_start": "--shift-start",
+    "day": "--day",
 }
 
 _NAMED = re.compile(r"`([A-Za-z_][A-Za-z0-9_]*)`")

@@ -134,6 +134,8 @@ def _change_dict(c: Change) -> dict:
     for key in CHANGE_FIELDS.get(c.kind, ()):
         v = getattr(c, key)
         d[key] = list(v) if isinstance(v, tuple) else v
+    if c.day is not None:
+        d["day"] = c.day
     return d
 
 

@@ -312,6 +312,7 @@ class Change:
     to_min: float | None = None
     segments: tuple[int, ...] = ()
     features: tuple[str, ...] = ()
+    day: str | None = None  # cycle plans: the day the change is for (only that day's routes changed)
 
 
 CHANGE_FIELDS: dict[str, tuple[str, ...]] = {

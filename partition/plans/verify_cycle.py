@@ -110,6 +110,11 @@ def cycle_figures(plan: Plan, net: Network, profile: Profile, summ: FleetSummary
         if got is None or abs(float(got) - value) > _TOL + 1e-6 * abs(value):
             yield Violation("summary", f"{key} {got} but the day routes give {value:.4f}", "summary")
             return
+    dl = plan.deferred or ()
+    if (summ.deferred_segments or 0) != len(dl) or abs((summ.deferred_min or 0.0) - sum(x.work_min for x in dl)) > _TOL:
+        yield Violation("summary", f"deferred_segments {summ.deferred_segments}, deferred_min {summ.deferred_min}, "
+                        f"but the defer list holds {len(dl)} street(s)", "summary")
+        return
     over = {(c.id, r.day) for c, r in routes if r.totals.total_min > c.shift_limit_min + TOL_MIN}
     listed = {(o.crew, o.day) for o in summ.over_limit}
     if over != listed:
@@ -120,9 +125,15 @@ def cycle_figures(plan: Plan, net: Network, profile: Profile, summ: FleetSummary
     from crewcut.solve.postman.bounds import fleet_lower_bound
 
     off = _days_off(plan)
-    depots = [c.depot_node for c in plan.crews for d in cyc.days if d not in off.get(c.id, ())]
+    absent = {(ch.crew, ch.day) for ch in plan.history.changes if ch.kind == "absent" and ch.day is not None}
+    depots = [c.depot_node for c in plan.crews for d in cyc.days
+              if d not in off.get(c.id, ()) and (c.id, d) not in absent]
+    served = None
+    if plan.deferred:
+        gone = {d.segment for d in plan.deferred}
+        served = [s for s in range(net.n_segments) if s not in gone]
     try:
-        lb = float(fleet_lower_bound(net, profile, depots, len(depots)))
+        lb = float(fleet_lower_bound(net, profile, depots, len(depots), served))
     except InputError as exc:
         yield Violation("summary", f"the lower bound cannot be recomputed: {exc.message}", "lower bound")
         return

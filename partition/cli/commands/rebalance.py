@@ -39,6 +39,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="new streets (a street network file) joining the network at its intersections")
     parser.add_argument("--shift-limit", metavar="CREW=MINUTES", action="append", default=[],
                         help="today's shift limit of a crew in minutes (repeat for several)")
+    parser.add_argument("--day", metavar="LABEL",
+                        help="a cycle plan: the day the changes are for; only that day's routes change")
     parser.add_argument("--stability", metavar="W", type=float, default=0.5,
                         help="minutes of the longer shift a balancing move must save for every segment it takes "
                              "from the crew that had it (default 0.5; 0: balance freely)")
@@ -83,13 +85,27 @@ def run(args, ui) -> int:
                       added_crews=tuple(Crew(cid, float(profile.shift_limit_min), (lon, lat)) for cid, lon, lat in add),
                       closed=tuple(close), opened=opened, shift_limits=limits)
     t0 = time.perf_counter()
+    if plan.settings.options.cycle is not None and args.day is None:
+        from crewcut.solve.errors import InputError
+
+        raise InputError(f"{plan_path} is a cycle plan ({', '.join(plan.settings.options.cycle.days)}): "
+                         "its changes are for one day", "give the day with --day, e.g. --day "
+                         + plan.settings.options.cycle.days[0])
     with stage_progress(ui) as progress:
-        new_plan = replan(
-            plan, net, changes, profile=profile, stability=args.stability,
-            overflow="defer" if args.defer else ("overtime" if args.overtime else None),
-            seed=args.seed, workers=args.workers, time_limit_s=args.time_limit, progress=progress,
-            parent={"sha256": hashlib.sha256(raw).hexdigest(), "path": str(plan_path)},
-            source=str(net_path), network_name=f"network '{net_path}'")
+        overflow = "defer" if args.defer else ("overtime" if args.overtime else None)
+        parent = {"sha256": hashlib.sha256(raw).hexdigest(), "path": str(plan_path)}
+        if args.day is not None:
+            from crewcut.cycle.replan_day import replan_day
+
+            new_plan = replan_day(plan, net, changes, args.day, profile=profile, stability=args.stability,
+                                  overflow=overflow, seed=args.seed, workers=args.workers,
+                                  time_limit_s=args.time_limit, progress=progress, parent=parent,
+                                  source=str(net_path), network_name=f"network '{net_path}'")
+        else:
+            new_plan = replan(
+                plan, net, changes, profile=profile, stability=args.stability, overflow=overflow,
+                seed=args.seed, workers=args.workers, time_limit_s=args.time_limit, progress=progress,
+                parent=parent, source=str(net_path), network_name=f"network '{net_path}'")
     seconds = time.perf_counter() - t0
     rep = change_report(plan, new_plan)
     path = write_plan(new_plan, out_dir / "plan.json")
