@@ -39,7 +39,10 @@ from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Profile
 from crewcut.solve.result import TURNS, Augmentation, Route, RouteTotals, Traversal
 from crewcut.solve.network.depot import check_depot_node
-from crewcut.solve.postman.tasks import DeadheadArcs, TaskSet, build_deadhead, build_tasks
+from crewcut.solve.postman.tasks import DeadheadArcs, TaskSet, build_deadhead, build_tasks, orient_under_bans
+from crewcut.solve.circuits.bans import BanTable
+from crewcut.solve.circuits.detours import legal_order
+from crewcut.solve.circuits.euler import turns_along
 from crewcut.solve.circuits.turns import TurnModel
 
 
@@ -104,6 +107,8 @@ def augmented_traversals(net: Network, profile: Profile, depot: int, segments=No
     """
     tasks = build_tasks(net, profile, None if segments is None else [int(s) for s in segments])
     arcs = build_deadhead(net, profile, depot)
+    if net.turn_bans.size:
+        tasks = orient_under_bans(net, tasks, arcs)
     n_tasks = len(tasks)
     if n_tasks == 0:
         return None
@@ -166,20 +171,36 @@ def plan_route(net: Network, profile: Profile, depot: int, segments=None, *, tur
     service, minutes, metres, aug = trav.service, trav.minutes, trav.metres, trav.aug
     n_tasks, extra = trav.n_tasks, trav.n_added
 
-    circuit = euler_circuit(tail, head, seg, forward, depot, TurnModel.from_network(net, profile),
-                            turn_aware=turn_aware)
+    model = TurnModel.from_network(net, profile)
+    bans = BanTable.of(net)
+    circuit = euler_circuit(tail, head, seg, forward, depot, model, turn_aware=turn_aware, bans=bans)
     o = circuit.order
-    turn_min = circuit.turn_s / 60.0
+    turn_code, turn_s = circuit.turn, circuit.turn_s
+    ban_stats = {}
+    if bans is not None:  # a detour in place of every forbidden turn the circuit could not avoid
+        o, added, made = legal_order(o, tail, head, seg, forward, trav.arcs, model, bans, depot)
+        if added.size:
+            a = trav.arcs
+            tail, head = np.concatenate([tail, a.tail[added]]), np.concatenate([head, a.head[added]])
+            seg, forward = np.concatenate([seg, a.seg[added]]), np.concatenate([forward, a.forward[added]])
+            service = np.concatenate([service, np.zeros(added.size, bool)])
+            minutes = np.concatenate([minutes, a.minutes[added]])
+            metres = np.concatenate([metres, a.metres[added]])
+            turn_code, turn_s = turns_along(o, seg, forward, model)
+        yard = o[1:][bans.banned(seg[o[:-1]], forward[o[:-1]], seg[o[1:]], forward[o[1:]])]
+        ban_stats = {"detours": made, "detour_traversals": int(added.size),
+                     "detour_min": float(trav.arcs.minutes[added].sum()), "yard_turns": int(yard.size)}
+    turn_min = turn_s / 60.0
     traversals = tuple(
         Traversal(segment=s, from_node=a, to_node=b, service=sv, metres=me, minutes=mi,
                   turn=TURNS[k], turn_minutes=tm)
         for s, a, b, sv, me, mi, k, tm in zip(
             seg[o].tolist(), tail[o].tolist(), head[o].tolist(), service[o].tolist(), metres[o].tolist(),
-            minutes[o].tolist(), circuit.turn.tolist(), turn_min.tolist()))
+            minutes[o].tolist(), turn_code.tolist(), turn_min.tolist()))
     totals = RouteTotals.of(traversals)
     stats = dict(circuit.stats)
     stats.update(tasks=n_tasks, deadhead_added=extra, augmentation_min=float(aug.cost),
-                 augmentation_lower_bound_min=float(aug.lower_bound), circuit=circuit.method)
+                 augmentation_lower_bound_min=float(aug.lower_bound), circuit=circuit.method, **ban_stats)
     return Route(depot=depot, traversals=traversals, totals=totals,
                  method=f"{aug.method}; {'turn-aware circuit' if turn_aware else 'Hierholzer circuit'}",
                  exact=bool(aug.exact),

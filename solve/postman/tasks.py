@@ -110,3 +110,25 @@ def build_deadhead(net: Network, profile: Profile, depot: int | None = None) -> 
     return DeadheadArcs(tail=tail.astype(np.int64), head=head.astype(np.int64), seg=seg.astype(np.int64),
                         forward=fwd.astype(bool), minutes=dh[seg].astype(np.float64),
                         metres=net.seg_length[seg].astype(np.float64))
+
+
+def orient_under_bans(net: Network, tasks: TaskSet, arcs: DeadheadArcs) -> TaskSet:
+    """``tasks`` with each either-way pass fixed to its one direction a closed route can drive.
+
+    Under turn bans one direction of a two-way street may lie on no closed walk
+    through the depot while the other does (``arcs`` holds only those that do,
+    :func:`build_deadhead` with a depot); a pass served the wrong way round could
+    then never be joined to the route. Passes with both or neither direction usable
+    are left as they are.
+    """
+    has = np.zeros((net.n_segments, 2), bool)
+    has[arcs.seg, arcs.forward.astype(np.int64)] = True
+    loose = ~tasks.directed
+    only_fwd = loose & has[tasks.seg, 1] & ~has[tasks.seg, 0]
+    only_back = loose & has[tasks.seg, 0] & ~has[tasks.seg, 1]
+    if not (only_fwd.any() or only_back.any()):
+        return tasks
+    u, v = net.seg_u[tasks.seg], net.seg_v[tasks.seg]
+    return TaskSet(seg=tasks.seg, tail=np.where(only_back, v, tasks.tail).astype(np.int64),
+                   head=np.where(only_back, u, tasks.head).astype(np.int64),
+                   directed=tasks.directed | only_fwd | only_back, minutes=tasks.minutes, metres=tasks.metres)
