@@ -47,11 +47,11 @@ def run(args, ui) -> int:
                           area=area, unservable=args.unservable)
     seconds = time.perf_counter() - t0
     path = write_plan(plan, out_dir / "plan.json")
-    _print(ui, plan, path, seconds)
+    _print(ui, plan, path, seconds, net.restrictions)
     return 0
 
 
-def _print(ui, plan, path: Path, seconds: float) -> None:
+def _print(ui, plan, path: Path, seconds: float, restrictions=()) -> None:
     # The workload table's caption already gives longest / mean, the bound, the gap
     # and the crews over their limit; add only what the table does not say.
     from crewcut.cli.tables import workload_table
@@ -71,4 +71,8 @@ def _print(ui, plan, path: Path, seconds: float) -> None:
         from crewcut.cli.tables import left_out_table
 
         ui.out.print(left_out_table(plan.left_out))
+    if restrictions:  # the network file's turn restrictions: the routes make none of the turns applied ones forbid
+        from crewcut.cli.tables import restriction_table
+
+        ui.out.print(restriction_table(restrictions))
     ui.out.print(f"plan written to {path} ({seconds:.1f} s)")
