@@ -73,6 +73,7 @@ NOT_APPLIED = {
     "via_outside": "its via node is not among the streets read (outside the extract or on a street left out)",
     "way_cut": "a member way has no part at the via node among the streets read (cut at the extract's border)",
 }
+_TYPES = {"n": "node", "w": "way", "r": "relation"}
 _HINT = ("fix the relation in the map data (from and to ways that start or end at one via node), "
          "or remove the relation from the extract")
 
@@ -150,7 +151,7 @@ def _check_members(rel: RawRestriction, kind: str) -> None:
         if not roles[role]:
             raise _broken(rel, f"has no '{role}' member")
     for role in ("from", "to"):
-        odd = [f"{t}/{ref}" for t, ref in roles[role] if t != "w"]
+        odd = [f"{_TYPES.get(t, t)}/{ref}" for t, ref in roles[role] if t != "w"]
         if odd:
             raise _broken(rel, f"its '{role}' member {odd[0]} is not a way")
     if len(roles["from"]) > 1 and kind != "no_entry":
