@@ -18,10 +18,19 @@ Method
    undirected and directed cases, a stated heuristic with a lower bound for the
    mixed case; it also connects a depot that lies away from the tasks).
 3. An Euler circuit from the depot, turn-aware by default: :mod:`crewcut.solve.circuits.euler`.
+4. Where the network forbids turns (``Network.turn_bans``, e.g. OpenStreetMap
+   restrictions): the circuit's pairing avoids them, a pass that may be served
+   either way is served in a direction a closed route can drive, and every
+   forbidden turn the circuit still makes is replaced by the least legal detour
+   (:mod:`crewcut.solve.circuits.detours`). At its own depot a crew may turn any
+   way (it turns in the yard); those turns are counted in ``stats["yard_turns"]``.
+   Without bans none of this runs and the route is what it always was.
 
 The route's ``lower_bound_min`` bounds its total minutes: service, deadhead and
 the least turns every served arrival forces (:func:`crewcut.solve.postman.bounds.turn_lower_bound`);
-``exact`` says the deadhead part is proven least, never the turns.
+``exact`` says the deadhead part is proven least, never the turns. The bound
+ignores turn bans (a relaxation, see :mod:`crewcut.solve.postman.bounds`), while the
+route's totals include its detours.
 """
 from __future__ import annotations
 

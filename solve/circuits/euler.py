@@ -32,6 +32,12 @@ departures are taken in index order, so the result is deterministic.
 3. Open the cycle at the depot where the dropped turn (the last arrival's turn
    into the first departure, never driven) is dearest.
 
+Forbidden turns (a :class:`crewcut.solve.circuits.bans.BanTable`): a banned pair
+weighs :data:`crewcut.solve.circuits.bans.BAN_WEIGHT_S` more in steps 1 to 3, so the
+pairing and the splices make one only where nothing else balances the node, and
+of the plain and the turn-aware circuit the one with fewer banned turns is kept;
+:mod:`crewcut.solve.circuits.detours` replaces what remains.
+
 The splice step can add penalty, so the turn-aware circuit is not guaranteed to
 beat the plain one; the plain circuit is computed as well and kept when it is
 cheaper (reported in ``stats["kept"]``). Either way, the result never has more

@@ -49,6 +49,13 @@ a self-loop. Nodes missing from the file (an extract cut at its border) break a
 way; the part beyond is left out with a warning. Every segment keeps
 ``way/ID`` as its source id and ``node/ID`` labels for its end nodes.
 
+Turn restrictions: every ``type=restriction`` relation is read (a first pass over
+the file's relations, then the ways they name are kept with their node lists) and
+becomes forbidden turns of the network (``Network.turn_bans``) or a note saying
+why it was not applied (``Network.restrictions``); the rules are in
+:mod:`crewcut.solve.readers.osmturns`. A relation with broken members stops the
+read with its id.
+
 OpenStreetMap topology is explicit (shared node ids), so no snapping by distance
 and no split-at-touch is applied; only nodes at identical coordinates merge.
 Road class is the highway value; service is the profile's default for it.
