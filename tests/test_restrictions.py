@@ -330,3 +330,35 @@ def test_fleet_plan_with_bans_verifies(tmp_path):
         for r in crew.routes:
             steps = [(t.segment, int(t.from_node == net.seg_u[t.segment]), t.from_node) for t in r.traversals]
             assert forbidden_turns_made(steps, bans, crew.depot_node) == []
+
+
+def test_no_exit_with_two_to_ways_bans_both(tmp_path):
+    rel = (81, {"restriction": "no_exit"}, [("way", 10, "from"), ("node", 1, "via"), ("way", 12, "to"),
+                                            ("way", 13, "to")])
+    net = read_network(write(tmp_path, [rel]), LIGHT)
+    c = centre(net)
+    assert rows(net) == {arrival(net, 10, c) + departure(net, w, c) for w in (12, 13)}
+
+
+# ------------------------------------------------------------------ hostile relations: a message, never a crash
+MEMBER = st.tuples(st.sampled_from(["node", "way", "relation"]), st.sampled_from([1, 2, 3, 10, 11, 12, 13, 999]),
+                   st.sampled_from(["from", "to", "via", "", "location_hint"]))
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(members=st.lists(MEMBER, max_size=5),
+       tags=st.dictionaries(st.sampled_from(["restriction", "restriction:hgv", "except", "restriction:conditional"]),
+                            st.sampled_from(["no_left_turn", "only_straight_on", "no_entry", "give_way", "hgv",
+                                             "no_u_turn @ (22:00-06:00)", ""]), max_size=3))
+def test_any_relation_is_read_or_refused_with_its_id(tmp_path_factory, members, tags):
+    """Common practice, no source: whatever the members, check exits 0 or 2, with the relation named on 2."""
+    import contextlib
+    import io
+
+    path = write(tmp_path_factory.mktemp("fuzz"), [(91, tags, members)])
+    err = io.StringIO()
+    with contextlib.redirect_stderr(err), contextlib.redirect_stdout(io.StringIO()):
+        rc = main(["check", str(path)])
+    assert rc in (0, 2) and "Traceback" not in err.getvalue()
+    if rc == 2:
+        assert "relation/91" in err.getvalue()
