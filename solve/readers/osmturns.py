@@ -256,12 +256,6 @@ def apply_restrictions(net: Network, relations: list[RawRestriction], ways: dict
     rows: dict[tuple[int, int, int, int], list[str]] = {}
     for rel, kind, via in plans:
         x = index.get(f"node/{via}")
-        arrive = [] if x is None else [a for w in rel.ways("from") for a in ends.arrivals(x, f"way/{w}")]
-        if kind in NO_KINDS:
-            depart = [] if x is None else [d for w in rel.ways("to") for d in ends.departures(x, f"way/{w}")]
-        else:
-            allowed = set() if x is None else {d for w in rel.ways("to") for d in ends.departures(x, f"way/{w}")}
-            depart = [] if x is None else [d for d in ends.departures(x, None) if d not in allowed]
         if x is None or not ends.by_node.get(x):
             notes.append(RestrictionNote(rel.key, kind, False, "via_outside", f"node/{via} is not on a street read"))
             continue
@@ -271,6 +265,12 @@ def apply_restrictions(net: Network, relations: list[RawRestriction], ways: dict
             notes.append(RestrictionNote(rel.key, kind, False, "way_cut",
                                          f"way/{cut[0]} has no part at node/{via} among the streets read"))
             continue
+        arrive = [a for w in rel.ways("from") for a in ends.arrivals(x, f"way/{w}")]
+        named = [d for w in rel.ways("to") for d in ends.departures(x, f"way/{w}")]
+        if kind in NO_KINDS:
+            depart = named
+        else:  # only_*: every way out but the named one
+            depart = [d for d in ends.departures(x, None) if d not in set(named)]
         made = 0
         for a in arrive:
             for d in depart:
