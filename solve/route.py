@@ -212,6 +212,6 @@ def plan_route(net: Network, profile: Profile, depot: int, segments=None, *, tur
                  augmentation_lower_bound_min=float(aug.lower_bound), circuit=circuit.method, **ban_stats)
     return Route(depot=depot, traversals=traversals, totals=totals,
                  method=f"{aug.method}; {'turn-aware circuit' if turn_aware else 'Hierholzer circuit'}",
-                 exact=bool(aug.exact),
+                 exact=bool(aug.exact) and not ban_stats.get("detours"),  # a detour's deadhead is not proven least
                  lower_bound_min=route_lower_bound(net, profile, depot, trav.tasks, trav.arcs, aug.lower_bound),
                  stats=stats)

@@ -362,3 +362,13 @@ def test_any_relation_is_read_or_refused_with_its_id(tmp_path_factory, members, 
     assert rc in (0, 2) and "Traceback" not in err.getvalue()
     if rc == 2:
         assert "relation/91" in err.getvalue()
+
+
+def test_route_command_counts_its_detours(tmp_path, capsys, monkeypatch):
+    """The one-crew command on the triangle above: both passes into node 1 go round by the spur."""
+    monkeypatch.setenv("COLUMNS", "200")
+    path = write(tmp_path, [restriction(70, "no_left_turn", 60, 61, via=101)], RING_NODES, RING_WAYS, "ring.osm")
+    assert main(["route", str(path), "--depot", ",".join(map(str, offset(0, 0))), "--out", str(tmp_path / "o")]) == 0
+    out = " ".join(capsys.readouterr().out.split())
+    assert "Turn restrictions: 1 read" in out
+    assert "detours round forbidden turns │ 2 (" in out and "no (heuristic)" in out
