@@ -372,3 +372,23 @@ def test_route_command_counts_its_detours(tmp_path, capsys, monkeypatch):
     out = " ".join(capsys.readouterr().out.split())
     assert "Turn restrictions: 1 read" in out
     assert "detours round forbidden turns │ 2 (" in out and "no (heuristic)" in out
+
+
+def test_rebalance_keeps_to_legal_turns_and_verifies(tmp_path, capsys):
+    """Two crews on the triangle, one absent the next day: the new plan still goes round the forbidden turn."""
+    path = write(tmp_path, [restriction(70, "no_left_turn", 60, 61, via=101)], RING_NODES, RING_WAYS, "ring.osm")
+    day1, day2 = tmp_path / "day1", tmp_path / "day2"
+    assert main(["plan", str(path), "--crews", "2", "--depot", ",".join(map(str, offset(0, 0))),
+                 "--out", str(day1)]) == 0
+    crew = json.loads((day1 / "plan.json").read_text(encoding="utf-8"))["crews"][1]["id"]
+    assert main(["rebalance", str(day1 / "plan.json"), "--network", str(path), "--absent", crew,
+                 "--out", str(day2)]) == 0
+    doc = json.loads((day2 / "plan.json").read_text(encoding="utf-8"))
+    segs = doc["network"]["segments"]
+    by_way = {s["source_id"]: s["id"] for s in segs}
+    ban = [(by_way["way/60"], 1, by_way["way/61"], 1)]
+    for c in doc["crews"]:
+        for r in c["routes"]:
+            steps = [(t["segment"], int(t["from"] == segs[t["segment"]]["from"]), t["from"]) for t in r["traversals"]]
+            assert forbidden_turns_made(steps, ban, c["depot_node"]) == []
+    assert main(["verify", str(day2 / "plan.json"), str(path)]) == 0
