@@ -392,3 +392,13 @@ def test_rebalance_keeps_to_legal_turns_and_verifies(tmp_path, capsys):
             steps = [(t["segment"], int(t["from"] == segs[t["segment"]]["from"]), t["from"]) for t in r["traversals"]]
             assert forbidden_turns_made(steps, ban, c["depot_node"]) == []
     assert main(["verify", str(day2 / "plan.json"), str(path)]) == 0
+
+
+def test_a_pass_no_closed_route_can_drive_under_the_bans_is_refused_by_name(tmp_path):
+    """Library call without the service scope: the triangle with its spur cut off, so the banned turn
+    cannot be gone round; the pass into node 1 is named, not a crash."""
+    ways = {k: v for k, v in RING_WAYS.items() if k != 63}
+    net = read_network(write(tmp_path, [restriction(70, "no_left_turn", 60, 61, via=101)], RING_NODES, ways,
+                             "ring.osm"), Profile())
+    with pytest.raises(InputError, match=r"way/60"):
+        plan_route(net, Profile(), net.node_label.index("node/100"))

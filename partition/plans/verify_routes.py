@@ -164,10 +164,9 @@ def _route(plan: Plan, net: Network, profile: Profile, model: TurnModel, ci: int
             if t.from_node == depot:
                 continue  # the crew turns in its yard
             rule = bans.source_of(int(seg[i - 1]), int(fwd[i - 1]), int(seg[i]), int(fwd[i])) or "a restriction"
-            yield Violation(f"{where} step {i + 1}",
-                            f"turns from segment {t0.segment} ('{net.seg_name[t0.segment] or net.seg_source[t0.segment]}')"
-                            f" into segment {t.segment} ('{net.seg_name[t.segment] or net.seg_source[t.segment]}') "
-                            f"at node {t.from_node}, which {rule} forbids", "forbidden turn")
+            a, b = (f"{s} ('{net.seg_name[s] or net.seg_source[s]}')" for s in (t0.segment, t.segment))
+            yield Violation(f"{where} step {i + 1}", f"turns from segment {a} into segment {b} at node "
+                            f"{t.from_node}, which {rule} forbids", "forbidden turn")
             return
     code = np.full(seg.size, START, np.int64)
     if seg.size > 1:

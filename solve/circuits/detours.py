@@ -86,7 +86,7 @@ class _LineGraph:
 
 def detour(graph: _LineGraph, x_seg: int, x_fwd: bool, node: int, d_seg: int,
            d_fwd: bool) -> tuple[list[int], float]:
-    """Deadhead arc indices of the least legal closed walk at ``node`` from arrival x into departure d, and its minutes."""
+    """The least legal closed walk at ``node`` from arrival x into departure d: deadhead arc indices, minutes."""
     arcs = graph.arcs
     heap: list[tuple[float, int, int]] = []
     dist: dict[int, float] = {}
@@ -133,7 +133,8 @@ def legal_order(order, tail, head, seg, forward, arcs: DeadheadArcs, model: Turn
     """``order`` with a detour in place of every banned turn.
 
     A banned turn at the depot is replaced too when a detour exists that does not
-    itself turn in the yard; otherwise the crew turns in the yard there. Returns ``(new order, added arcs)``: entries of the new order below
+    itself turn in the yard; otherwise the crew turns in the yard there. Returns
+    ``(new order, added arcs, detours made)``: entries of the new order below
     ``len(tail)`` are the given traversals, entry ``len(tail) + j`` is the deadhead
     arc ``added[j]`` (an index into ``arcs``).
     """
