@@ -16,6 +16,13 @@ Method
     closed walk through a node set S, S strongly connected, exactly when its
     tail is reachable from S and S is reachable from its head.
 
+Turn restrictions
+    The reachability counts above are over driving directions only. The list of
+    streets left out (:mod:`crewcut.solve.network.scope`) also keeps the network's
+    forbidden turns, so with OpenStreetMap restrictions it can name a few streets
+    more; :attr:`CheckReport.restrictions` lists every restriction read and what
+    became of it.
+
 Severity
     A street that needs service and cannot be reached or left is an error (the
     network is not plannable); the same for a street that needs no service is a
