@@ -52,7 +52,7 @@ from crewcut.solve.postman.tasks import DeadheadArcs, TaskSet, build_deadhead, b
 from crewcut.solve.circuits.bans import BanTable
 from crewcut.solve.circuits.detours import legal_order
 from crewcut.solve.circuits.euler import turns_along
-from crewcut.solve.circuits.turns import TurnModel
+from crewcut.solve.circuits.turns import ACROSS_TRAFFIC, U_TURN, TurnModel
 
 
 def _check_segments(net: Network, segments) -> np.ndarray | None:
@@ -199,6 +199,10 @@ def plan_route(net: Network, profile: Profile, depot: int, segments=None, *, tur
         yard = o[1:][bans.banned(seg[o[:-1]], forward[o[:-1]], seg[o[1:]], forward[o[1:]])]
         ban_stats = {"detours": made, "detour_traversals": int(added.size),
                      "detour_min": float(trav.arcs.minutes[added].sum()), "yard_turns": int(yard.size)}
+        if added.size:  # the circuit's own counts, now with the detours' turns
+            ban_stats.update(u_turns=int(np.count_nonzero(turn_code == U_TURN)),
+                             across_turns=int(np.count_nonzero(turn_code == ACROSS_TRAFFIC)),
+                             turn_s=float(turn_s.sum()))
     turn_min = turn_s / 60.0
     traversals = tuple(
         Traversal(segment=s, from_node=a, to_node=b, service=sv, metres=me, minutes=mi,

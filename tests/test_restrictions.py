@@ -402,3 +402,16 @@ def test_a_pass_no_closed_route_can_drive_under_the_bans_is_refused_by_name(tmp_
                              "ring.osm"), Profile())
     with pytest.raises(InputError, match=r"way/60"):
         plan_route(net, Profile(), net.node_label.index("node/100"))
+
+
+def test_route_stats_count_the_detours_turns(tmp_path):
+    """The route's turn counts include the turns of its detours (they are driven)."""
+    path = write(tmp_path, [restriction(70, "no_left_turn", 60, 61, via=101)], RING_NODES, RING_WAYS, "ring.osm")
+    from crewcut.solve.profile import builtin_profile
+
+    prof = builtin_profile("curb-sweeping")
+    net = read_network(path, prof)
+    route = plan_route(net, prof, net.node_label.index("node/100"))
+    assert route.stats["detours"] == 2 and route.stats["yard_turns"] == 0
+    assert route.stats["u_turns"] == route.totals.u_turns == sum(t.turn == "u_turn" for t in route.traversals)
+    assert route.totals.u_turns >= 2  # each detour turns round at the end of the spur (a dead end)

@@ -389,6 +389,7 @@ def euler_circuit(tail, head, seg, forward, depot: int, model: TurnModel | None 
         "plain_across_turns": int(np.count_nonzero(p_turn == ACROSS_TRAFFIC)),
         "plain_turn_s": float(p_s.sum()),
     }
+
     def n_banned(o) -> int:
         return 0 if bans is None else int(banned_steps(o, seg, forward, head, bans, depot).size)
 
