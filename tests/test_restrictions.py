@@ -415,3 +415,14 @@ def test_route_stats_count_the_detours_turns(tmp_path):
     assert route.stats["detours"] == 2 and route.stats["yard_turns"] == 0
     assert route.stats["u_turns"] == route.totals.u_turns == sum(t.turn == "u_turn" for t in route.traversals)
     assert route.totals.u_turns >= 2  # each detour turns round at the end of the spur (a dead end)
+
+
+def test_same_file_same_seed_same_bytes(tmp_path):
+    """Common practice, no source: two runs on a file with restrictions write the same plan, byte for byte."""
+    path = write(tmp_path, [restriction(70, "no_left_turn", 60, 61, via=101)], RING_NODES, RING_WAYS, "ring.osm")
+    outs = []
+    for name in ("a", "b"):
+        assert main(["plan", str(path), "--crews", "2", "--depot", ",".join(map(str, offset(0, 0))), "--seed", "4",
+                     "--out", str(tmp_path / name)]) == 0
+        outs.append((tmp_path / name / "plan.json").read_bytes())
+    assert outs[0] == outs[1]
