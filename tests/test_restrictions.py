@@ -275,7 +275,8 @@ def random_bans(net, rng, share: float) -> np.ndarray:
     return np.array(sorted(set(out)), np.int64).reshape(-1, 4)
 
 
-@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=25, deadline=None, derandomize=True, database=None,
+          suppress_health_check=[HealthCheck.too_slow])
 @given(seed=st.integers(0, 10_000), share=st.sampled_from([0.05, 0.15, 0.3]), cols=st.integers(3, 6),
        rows=st.integers(3, 5), turn_aware=st.booleans())
 def test_random_bans_routes_are_closed_serve_once_and_turn_legally(seed, share, cols, rows, turn_aware):
@@ -305,7 +306,7 @@ def test_random_bans_routes_are_closed_serve_once_and_turn_legally(seed, share, 
     # never a forbidden turn, except in the depot's own yard (the documented rule), and those are counted
     steps = [(t.segment, f, t.from_node) for t, f in zip(trs, fwd)]
     assert forbidden_turns_made(steps, bans, depot) == []
-    assert len(forbidden_turns_made(steps, bans, -1)) == route.stats["yard_turns"]
+    assert len(forbidden_turns_made(steps, bans, -1)) == route.stats.get("yard_turns", 0)  # none without bans
     # every street left out is one networkx's line graph says no closed walk can serve
     ok = nx_servable_directions(net, depot, bans)
     full = required_passes(net, prof)
@@ -345,7 +346,8 @@ MEMBER = st.tuples(st.sampled_from(["node", "way", "relation"]), st.sampled_from
                    st.sampled_from(["from", "to", "via", "", "location_hint"]))
 
 
-@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(max_examples=40, deadline=None, derandomize=True, database=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(members=st.lists(MEMBER, max_size=5),
        tags=st.dictionaries(st.sampled_from(["restriction", "restriction:hgv", "except", "restriction:conditional"]),
                             st.sampled_from(["no_left_turn", "only_straight_on", "no_entry", "give_way", "hgv",
