@@ -18,10 +18,19 @@ Method
    undirected and directed cases, a stated heuristic with a lower bound for the
    mixed case; it also connects a depot that lies away from the tasks).
 3. An Euler circuit from the depot, turn-aware by default: :mod:`crewcut.solve.circuits.euler`.
+4. Where the network forbids turns (``Network.turn_bans``, e.g. OpenStreetMap
+   restrictions): the circuit's pairing avoids them, a pass that may be served
+   either way is served in a direction a closed route can drive, and every
+   forbidden turn the circuit still makes is replaced by the least legal detour
+   (:mod:`crewcut.solve.circuits.detours`). At its own depot a crew may turn any
+   way (it turns in the yard); those turns are counted in ``stats["yard_turns"]``.
+   Without bans none of this runs and the route is what it always was.
 
 The route's ``lower_bound_min`` bounds its total minutes: service, deadhead and
 the least turns every served arrival forces (:func:`crewcut.solve.postman.bounds.turn_lower_bound`);
-``exact`` says the deadhead part is proven least, never the turns.
+``exact`` says the deadhead part is proven least, never the turns. The bound
+ignores turn bans (a relaxation, see :mod:`crewcut.solve.postman.bounds`), while the
+route's totals include its detours.
 """
 from __future__ import annotations
 
@@ -39,8 +48,11 @@ from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Profile
 from crewcut.solve.result import TURNS, Augmentation, Route, RouteTotals, Traversal
 from crewcut.solve.network.depot import check_depot_node
-from crewcut.solve.postman.tasks import DeadheadArcs, TaskSet, build_deadhead, build_tasks
-from crewcut.solve.circuits.turns import TurnModel
+from crewcut.solve.postman.tasks import DeadheadArcs, TaskSet, build_deadhead, build_tasks, orient_under_bans
+from crewcut.solve.circuits.bans import BanTable
+from crewcut.solve.circuits.detours import legal_order
+from crewcut.solve.circuits.euler import turns_along
+from crewcut.solve.circuits.turns import ACROSS_TRAFFIC, U_TURN, TurnModel
 
 
 def _check_segments(net: Network, segments) -> np.ndarray | None:
@@ -104,6 +116,8 @@ def augmented_traversals(net: Network, profile: Profile, depot: int, segments=No
     """
     tasks = build_tasks(net, profile, None if segments is None else [int(s) for s in segments])
     arcs = build_deadhead(net, profile, depot)
+    if net.turn_bans.size:
+        tasks = orient_under_bans(net, tasks, arcs)
     n_tasks = len(tasks)
     if n_tasks == 0:
         return None
@@ -166,22 +180,42 @@ def plan_route(net: Network, profile: Profile, depot: int, segments=None, *, tur
     service, minutes, metres, aug = trav.service, trav.minutes, trav.metres, trav.aug
     n_tasks, extra = trav.n_tasks, trav.n_added
 
-    circuit = euler_circuit(tail, head, seg, forward, depot, TurnModel.from_network(net, profile),
-                            turn_aware=turn_aware)
+    model = TurnModel.from_network(net, profile)
+    bans = BanTable.of(net)
+    circuit = euler_circuit(tail, head, seg, forward, depot, model, turn_aware=turn_aware, bans=bans)
     o = circuit.order
-    turn_min = circuit.turn_s / 60.0
+    turn_code, turn_s = circuit.turn, circuit.turn_s
+    ban_stats = {}
+    if bans is not None:  # a detour in place of every forbidden turn the circuit could not avoid
+        o, added, made = legal_order(o, tail, head, seg, forward, trav.arcs, model, bans, depot)
+        if added.size:
+            a = trav.arcs
+            tail, head = np.concatenate([tail, a.tail[added]]), np.concatenate([head, a.head[added]])
+            seg, forward = np.concatenate([seg, a.seg[added]]), np.concatenate([forward, a.forward[added]])
+            service = np.concatenate([service, np.zeros(added.size, bool)])
+            minutes = np.concatenate([minutes, a.minutes[added]])
+            metres = np.concatenate([metres, a.metres[added]])
+            turn_code, turn_s = turns_along(o, seg, forward, model)
+        yard = o[1:][bans.banned(seg[o[:-1]], forward[o[:-1]], seg[o[1:]], forward[o[1:]])]
+        ban_stats = {"detours": made, "detour_traversals": int(added.size),
+                     "detour_min": float(trav.arcs.minutes[added].sum()), "yard_turns": int(yard.size)}
+        if added.size:  # the circuit's own counts, now with the detours' turns
+            ban_stats.update(u_turns=int(np.count_nonzero(turn_code == U_TURN)),
+                             across_turns=int(np.count_nonzero(turn_code == ACROSS_TRAFFIC)),
+                             turn_s=float(turn_s.sum()))
+    turn_min = turn_s / 60.0
     traversals = tuple(
         Traversal(segment=s, from_node=a, to_node=b, service=sv, metres=me, minutes=mi,
                   turn=TURNS[k], turn_minutes=tm)
         for s, a, b, sv, me, mi, k, tm in zip(
             seg[o].tolist(), tail[o].tolist(), head[o].tolist(), service[o].tolist(), metres[o].tolist(),
-            minutes[o].tolist(), circuit.turn.tolist(), turn_min.tolist()))
+            minutes[o].tolist(), turn_code.tolist(), turn_min.tolist()))
     totals = RouteTotals.of(traversals)
     stats = dict(circuit.stats)
     stats.update(tasks=n_tasks, deadhead_added=extra, augmentation_min=float(aug.cost),
-                 augmentation_lower_bound_min=float(aug.lower_bound), circuit=circuit.method)
+                 augmentation_lower_bound_min=float(aug.lower_bound), circuit=circuit.method, **ban_stats)
     return Route(depot=depot, traversals=traversals, totals=totals,
                  method=f"{aug.method}; {'turn-aware circuit' if turn_aware else 'Hierholzer circuit'}",
-                 exact=bool(aug.exact),
+                 exact=bool(aug.exact) and not ban_stats.get("detours"),  # a detour's deadhead is not proven least
                  lower_bound_min=route_lower_bound(net, profile, depot, trav.tasks, trav.arcs, aug.lower_bound),
                  stats=stats)

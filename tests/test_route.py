@@ -16,7 +16,7 @@ import pytest
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
-from helpers.checks import assert_closed_walk
+from helpers.checks import assert_closed_walk, forbidden_turns_made, nx_servable_directions
 from helpers.nets import ORIGIN, grid_network, make_network
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_BOTH_SIDES, SERVICE_EACH_DIRECTION, SERVICE_NONE, SERVICE_ONE_PASS
@@ -223,12 +223,18 @@ def test_helsinki_whole_extract(helsinki_pbf):
     # The extract is cut at its border, so some one-way pieces cannot be entered or left:
     # no closed route can serve them. networkx says which streets a closed route from the
     # depot can reach: those inside the depot's strongly connected component.
-    g = net.to_networkx()
-    scc = next(c for c in nx.strongly_connected_components(g) if depot in c)
-    servable = [s for s in range(net.n_segments) if net.seg_u[s] in scc and net.seg_v[s] in scc]
+    # With the extract's turn restrictions (net.turn_bans), networkx on the line graph says which
+    # directions lie on a closed walk through the depot; a street is servable when every direction
+    # its passes need is one of them (both for a both-sides street, one for a one-way street).
+    ok = nx_servable_directions(net, depot, net.turn_bans)
+    assert net.turn_bans.size
+    servable = [s for s in range(net.n_segments)
+                if (s, 1) in ok and (net.seg_oneway[s] or (s, 0) in ok)]
     assert len(servable) > 0.8 * net.n_segments
     route = plan_route(net, prof, depot, servable, time_limit_s=5.0)
     assert_valid_route(net, prof, route, depot, servable)
+    steps = [(t.segment, int(t.from_node == net.seg_u[t.segment]), t.from_node) for t in route.traversals]
+    assert forbidden_turns_made(steps, net.turn_bans, depot) == []
     assert route.stats["u_turns"] <= route.stats["plain_u_turns"]
     # asking for all of it is bad input, said clearly, not a crash
     if len(servable) < net.n_segments:

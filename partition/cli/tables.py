@@ -7,6 +7,7 @@ from rich.text import Text
 from crewcut.plans.model import Plan
 from crewcut.plans.view import PlanView, view
 from crewcut.reports.leftout import left_out_rows
+from crewcut.reports.restrictions import restriction_rows, shown_relations
 from crewcut.reports.textsafety import terminal_text
 from crewcut.reports.workload import COLUMNS, fmt, summary_lines, workload_rows
 
@@ -26,6 +27,20 @@ def workload_table(plan: Plan | PlanView) -> Table:
             cells[-1] += " !"
         style = "bold red" if over else ("bold" if r["row"] == "total" else None)
         table.add_row(*[Text(terminal_text(c)) for c in cells], style=style, end_section=len(rows) > 1 and r is rows[-2])
+    return table
+
+
+def restriction_table(notes) -> Table:
+    """The turn restrictions read: applied, and not applied per reason, with the relations named."""
+    rows = restriction_rows(notes)
+    table = Table(title=f"Turn restrictions: {sum(r['count'] for r in rows):,} read", title_justify="left",
+                  header_style="bold")
+    for col, justify in (("outcome", "left"), ("relations", "right"), ("turns banned", "right"),
+                         ("why", "left"), ("which", "left")):
+        table.add_column(col, justify=justify, overflow="fold")
+    for r in rows:
+        table.add_row(*[Text(terminal_text(x)) for x in (r["outcome"], f"{r['count']:,}", f"{r['bans']:,}",
+                                                          r["why"], shown_relations(r))])
     return table
 
 

@@ -22,7 +22,8 @@ In order, the first violation found is reported:
    (:mod:`crewcut.plans.verify_network`);
 3. crews: shift limits, depots, against the config's crews when it defines them;
    the defer list and its policy (:mod:`crewcut.plans.verify_settings`);
-4. territories, routes, traversals, turns, route totals, coverage
+4. territories, routes, traversals, turns, forbidden turns (the network file's
+   turn restrictions), route totals, coverage
    (:mod:`crewcut.plans.verify_routes`);
 5. the summary's figures, the crews over their limits, the lower bound and the
    gap (:mod:`crewcut.plans.verify_figures`).

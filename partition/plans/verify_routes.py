@@ -12,6 +12,12 @@
   arriving and departing traversals, classified by the route engine's turn model
   (:class:`crewcut.solve.circuits.turns.TurnModel`), and its minutes are that
   kind's penalty in the profile.
+* No turn is forbidden: where the network file holds turn restrictions
+  (OpenStreetMap ``type=restriction``, read again from the file), no step may
+  leave along a traversal that a restriction forbids after the step before it,
+  except at the crew's own depot (the crew turns in its yard there, the rule
+  :mod:`crewcut.solve.network.scope` plans with). A violation names the crew,
+  the step and the restriction (kind ``"forbidden turn"``).
 * Route totals (kilometres, minutes, U-turns, turns across traffic) equal the
   sums over their traversals.
 * Coverage: across all crews every required pass is served exactly once
@@ -22,6 +28,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from crewcut.solve.circuits.bans import BanTable
 from crewcut.solve.circuits.turns import START, TurnModel
 from crewcut.solve.costs import required_passes
 from crewcut.solve.network.model import Network
@@ -66,9 +73,10 @@ def check_routes(plan: Plan, net: Network, profile: Profile, deferred: set[int])
         return
     served = np.zeros((2, net.n_segments), np.int64)
     model = TurnModel.from_network(net, profile)
+    bans = BanTable.of(net)
     for ci, crew in enumerate(crews):
         for ri, route in enumerate(crew.routes):
-            found = next(_route(plan, net, profile, model, ci, ri, owner, served), None)
+            found = next(_route(plan, net, profile, model, ci, ri, owner, served, bans), None)
             if found is not None:
                 yield found
                 return
@@ -85,7 +93,8 @@ def check_routes(plan: Plan, net: Network, profile: Profile, deferred: set[int])
                         f"{fw[s]} forward, {bw[s]} backward and {ei[s]} either way, each exactly once", "coverage")
 
 
-def _route(plan: Plan, net: Network, profile: Profile, model: TurnModel, ci: int, ri: int, owner, served):
+def _route(plan: Plan, net: Network, profile: Profile, model: TurnModel, ci: int, ri: int, owner, served,
+           bans: BanTable | None = None):
     crews = plan.crews
     crew = crews[ci]
     depot = crew.depot_node
@@ -148,6 +157,17 @@ def _route(plan: Plan, net: Network, profile: Profile, model: TurnModel, ci: int
         yield Violation(f"{where} last step", f"ends at node {trs[-1].to_node}, not at the depot {depot}")
         return
     seg = np.array([t.segment for t in trs], np.int64)
+    if bans is not None and seg.size > 1:
+        bad = np.flatnonzero(bans.banned(seg[:-1], fwd[:-1], seg[1:], fwd[1:]))
+        for i in (bad + 1).tolist():
+            t0, t = trs[i - 1], trs[i]
+            if t.from_node == depot:
+                continue  # the crew turns in its yard
+            rule = bans.source_of(int(seg[i - 1]), int(fwd[i - 1]), int(seg[i]), int(fwd[i])) or "a restriction"
+            a, b = (f"{s} ('{net.seg_name[s] or net.seg_source[s]}')" for s in (t0.segment, t.segment))
+            yield Violation(f"{where} step {i + 1}", f"turns from segment {a} into segment {b} at node "
+                            f"{t.from_node}, which {rule} forbids", "forbidden turn")
+            return
     code = np.full(seg.size, START, np.int64)
     if seg.size > 1:
         code[1:] = model.classify(seg[:-1], fwd[:-1], seg[1:], fwd[1:])

@@ -18,8 +18,8 @@ DAY_MIN = 24 * 60.0  # a shift limit must lie within one day
 
 # The kinds of violation, so that a caller can tell them apart without reading the text.
 KINDS = ("profile", "network", "coordinates", "drawn line", "name", "passes", "minutes", "crew", "depot",
-         "shift limit", "deferred", "territory", "route", "turn", "totals", "coverage", "summary", "over limit",
-         "lower bound")
+         "shift limit", "deferred", "territory", "route", "turn", "forbidden turn", "totals", "coverage", "summary",
+         "over limit", "lower bound")
 
 
 @dataclass(frozen=True)

@@ -32,6 +32,12 @@ departures are taken in index order, so the result is deterministic.
 3. Open the cycle at the depot where the dropped turn (the last arrival's turn
    into the first departure, never driven) is dearest.
 
+Forbidden turns (a :class:`crewcut.solve.circuits.bans.BanTable`): a banned pair
+weighs :data:`crewcut.solve.circuits.bans.BAN_WEIGHT_S` more in steps 1 to 3, so the
+pairing and the splices make one only where nothing else balances the node, and
+of the plain and the turn-aware circuit the one with fewer banned turns is kept;
+:mod:`crewcut.solve.circuits.detours` replaces what remains.
+
 The splice step can add penalty, so the turn-aware circuit is not guaranteed to
 beat the plain one; the plain circuit is computed as well and kept when it is
 cheaper (reported in ``stats["kept"]``). Either way, the result never has more
@@ -56,6 +62,7 @@ from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
 from crewcut.solve.result import TURNS
+from crewcut.solve.circuits.bans import BAN_WEIGHT_S, BanTable, banned_steps
 from crewcut.solve.circuits.turns import ACROSS_TRAFFIC, START, U_TURN, TurnModel
 
 
@@ -159,7 +166,7 @@ class _Pairs:
     ``cost[pstart[p] + j]``.
     """
 
-    def __init__(self, tail, head, seg, forward, n_nodes, deg, model: TurnModel):
+    def __init__(self, tail, head, seg, forward, n_nodes, deg, model: TurnModel, bans: BanTable | None = None):
         self.arr = np.argsort(head, kind="stable")
         self.dep = np.argsort(tail, kind="stable")
         self.off = np.concatenate([[0], np.cumsum(deg)])
@@ -173,6 +180,10 @@ class _Pairs:
         d = self.dep[self.off[node_of_pos[p]] + j]
         self.code = model.classify(seg[a], forward[a], seg[d], forward[d])
         self.cost = model.seconds(self.code)
+        self.turn_cost = self.cost  # the true penalties; ``cost`` steers the choices
+        if bans is not None:  # a banned pair weighs BAN_WEIGHT_S more (at the depot too: avoided where possible)
+            self.banned = bans.banned(seg[a], forward[a], seg[d], forward[d])
+            self.cost = self.cost + BAN_WEIGHT_S * self.banned
         self.apos = np.empty(head.size, np.int64)
         self.apos[self.arr] = np.arange(head.size)
         self.dpos = np.empty(head.size, np.int64)
@@ -322,7 +333,8 @@ def _open_at_depot(succ: np.ndarray, pr: _Pairs, depot: int) -> np.ndarray:
     return np.asarray(order, np.int64)
 
 
-def _turns_along(order, seg, forward, model: TurnModel) -> tuple[np.ndarray, np.ndarray]:
+def turns_along(order, seg, forward, model: TurnModel) -> tuple[np.ndarray, np.ndarray]:
+    """Turn codes and penalty seconds of the traversals ``order`` in driving order (the first is "start")."""
     turn = np.full(order.size, START, np.int8)
     if order.size > 1:
         p, q = order[:-1], order[1:]
@@ -331,7 +343,7 @@ def _turns_along(order, seg, forward, model: TurnModel) -> tuple[np.ndarray, np.
 
 
 def euler_circuit(tail, head, seg, forward, depot: int, model: TurnModel | None = None, *,
-                  turn_aware: bool = True) -> Circuit:
+                  turn_aware: bool = True, bans: BanTable | None = None) -> Circuit:
     """An Euler circuit from ``depot`` over directed traversals.
 
     Parameters
@@ -348,6 +360,13 @@ def euler_circuit(tail, head, seg, forward, depot: int, model: TurnModel | None 
     turn_aware:
         Pair arrivals with departures to cut the turn penalty (the default), or
         plain Hierholzer.
+    bans:
+        Forbidden turns (:class:`crewcut.solve.circuits.bans.BanTable`). The
+        turn-aware pairing weighs a banned pair :data:`~crewcut.solve.circuits.bans.BAN_WEIGHT_S`
+        seconds more, so it makes one only where no pairing of the node avoids it;
+        of the two circuits the one with fewer banned turns is kept. A banned turn
+        that remains is for :func:`crewcut.solve.circuits.detours.legal_order` to
+        replace by a detour; ``stats["banned_left"]`` counts them.
 
     Raises ``ValueError`` when the traversals are not balanced or not connected
     with the depot (an Eulerization bug, not a user error).
@@ -363,26 +382,38 @@ def euler_circuit(tail, head, seg, forward, depot: int, model: TurnModel | None 
         empty = np.zeros(0, np.int64)
         return Circuit(empty, empty.astype(np.int8), np.zeros(0), "empty", {"traversals": 0})
     plain = hierholzer(tail, head, depot)
-    p_turn, p_s = _turns_along(plain, seg, forward, model)
+    p_turn, p_s = turns_along(plain, seg, forward, model)
     stats = {
         "traversals": int(n),
         "plain_u_turns": int(np.count_nonzero(p_turn == U_TURN)),
         "plain_across_turns": int(np.count_nonzero(p_turn == ACROSS_TRAFFIC)),
         "plain_turn_s": float(p_s.sum()),
     }
+
+    def n_banned(o) -> int:
+        return 0 if bans is None else int(banned_steps(o, seg, forward, head, bans, depot).size)
+
+    if bans is not None:
+        stats["banned_left"] = n_banned(plain)
     if not turn_aware:
         stats.update(u_turns=stats["plain_u_turns"], across_turns=stats["plain_across_turns"],
                      turn_s=stats["plain_turn_s"], kept="plain")
         return Circuit(plain, p_turn, p_s, "hierholzer", stats)
-    pr = _Pairs(tail, head, seg, forward, n_nodes, deg, model)
+    pr = _Pairs(tail, head, seg, forward, n_nodes, deg, model, bans)
     succ = _best_pairing(pr, deg)
-    pairing_s = float(pr.cost[pr.pstart[pr.apos] + pr.dpos[succ] - pr.off[head]].sum())
+    pairing_s = float(pr.turn_cost[pr.pstart[pr.apos] + pr.dpos[succ] - pr.off[head]].sum())
     succ, n_cyc, swaps = _splice(pr, succ, head, deg)
     order = _open_at_depot(succ, pr, depot)
-    turn, s = _turns_along(order, seg, forward, model)
+    turn, s = turns_along(order, seg, forward, model)
     stats.update(pairing_cycle_s=pairing_s, sub_circuits=int(n_cyc), splices=int(swaps),
                  spliced_turn_s=float(s.sum()))
-    if float(s.sum()) > stats["plain_turn_s"]:
+    if bans is None:
+        plain_better = float(s.sum()) > stats["plain_turn_s"]
+    else:  # fewer banned turns first (each costs a detour), then the turn penalty
+        mine = n_banned(order)
+        plain_better = (mine, float(s.sum())) > (stats["banned_left"], stats["plain_turn_s"])
+        stats["banned_left"] = min(mine, stats["banned_left"])
+    if plain_better:
         order, turn, s, kept = plain, p_turn, p_s, "plain"
     else:
         kept = "turn-aware"

@@ -16,6 +16,13 @@ Method
     closed walk through a node set S, S strongly connected, exactly when its
     tail is reachable from S and S is reachable from its head.
 
+Turn restrictions
+    The reachability counts above are over driving directions only. The list of
+    streets left out (:mod:`crewcut.solve.network.scope`) also keeps the network's
+    forbidden turns, so with OpenStreetMap restrictions it can name a few streets
+    more; :attr:`CheckReport.restrictions` lists every restriction read and what
+    became of it.
+
 Severity
     A street that needs service and cannot be reached or left is an error (the
     network is not plannable); the same for a street that needs no service is a
@@ -35,7 +42,7 @@ from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import breadth_first_order, connected_components
 
 from crewcut.solve.costs import required_passes
-from crewcut.solve.network.model import SERVICE_NONE, Finding, Network
+from crewcut.solve.network.model import SERVICE_NONE, Finding, Network, RestrictionNote
 from crewcut.solve.network.scope import LeftOutStreet, check_unservable, unservable_streets
 from crewcut.solve.profile import Profile
 
@@ -75,6 +82,8 @@ class CheckReport:
     left_out: tuple[LeftOutStreet, ...] = ()
     unservable: str = "refuse"
     trap_features: frozenset[str] = frozenset()  # features whose only errors are that no closed route serves them
+    # the source's turn restrictions and what became of each (Network.restrictions)
+    restrictions: tuple[RestrictionNote, ...] = ()
 
     @property
     def errors(self) -> tuple[Finding, ...]:
@@ -198,7 +207,7 @@ def check_network(net: Network, profile: Profile, depot: int | None = None,
         dead_ends=int((deg == 1).sum()), depot=depot, not_reachable=int(bad_reach.sum()),
         cannot_return=int(bad_return.sum()), findings=tuple(findings),
         left_out=unservable_streets(net, profile, None if depot is None else [depot]), unservable=unservable,
-        trap_features=trap_features)
+        trap_features=trap_features, restrictions=net.restrictions)
 
 
 def _main_parts(n, tail, head, seg, length, weak) -> np.ndarray:

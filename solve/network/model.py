@@ -52,6 +52,24 @@ class Finding:
     hint: str = ""
 
 
+@dataclass(frozen=True)
+class RestrictionNote:
+    """What became of one turn restriction of the source (OpenStreetMap ``type=restriction``).
+
+    ``applied``: it bans ``bans`` turns of this network (0 when the turn it forbids
+    cannot be driven anyway). Otherwise ``reason`` says why it was not applied (a
+    key of :data:`crewcut.solve.readers.osmturns.NOT_APPLIED`) and ``detail`` says
+    it in words; nothing was guessed.
+    """
+
+    source: str  # "relation/123"
+    kind: str  # the restriction value for the vehicle, e.g. "no_left_turn" ("" when none applies)
+    applied: bool
+    reason: str = ""
+    detail: str = ""
+    bans: int = 0
+
+
 @dataclass
 class RawLine:
     """One line feature as a reader found it, before topology repair.
@@ -108,10 +126,12 @@ class Network:
     # rows (arrive_seg, arrive_fwd, depart_seg, depart_fwd), arriving along arrive_seg and
     # leaving along depart_seg at their shared node; *_fwd is 1 for seg_u -> seg_v.
     turn_bans: np.ndarray = field(default_factory=lambda: np.zeros((0, 4), np.int64))
-    turn_ban_source: tuple[str, ...] = ()  # the restriction each row comes from (e.g. "r123")
+    turn_ban_source: tuple[str, ...] = ()  # the restriction(s) each row comes from ("relation/123")
     # Posted sweeping times (crewcut.solve.calendar.postings.Posting or None) per segment; empty: none
     # posted anywhere. A segment's posting holds for every pass it needs.
     seg_posting: tuple = ()
+    # every restriction the reader found and what became of it (not in the fingerprint: the bans are)
+    restrictions: tuple[RestrictionNote, ...] = ()
 
     # ----------------------------------------------------------------- sizes
     @property

@@ -46,6 +46,18 @@ less than the rule above. At ``w = 0`` a deadhead departure costs only its turn,
 so the assignment finds the same cheapest turns as the rule above, except that
 the last arrivals are placed at the depots.
 
+Turn bans
+---------
+Every bound here is computed without the network's forbidden turns
+(``Network.turn_bans``): a route that respects them is one of the routes the
+bounds already cover (forbidding turns only removes routes), so each bound stays
+a valid lower bound, a relaxation. Only the deadhead arcs are those a closed walk
+through the depot can use, which with bans is judged over legal turns
+(:func:`crewcut.solve.postman.tasks.build_deadhead`); no route can use another.
+The routes themselves respect the bans (their detours are deadhead the route
+counts, :mod:`crewcut.solve.circuits.detours`), so a reported gap, route total
+over bound, is measured with the route that turns legally.
+
 k crews (min-max)
 -----------------
 :func:`fleet_lower_bound` returns ``max(total / k, longest round trip)``:

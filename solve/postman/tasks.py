@@ -110,3 +110,36 @@ def build_deadhead(net: Network, profile: Profile, depot: int | None = None) -> 
     return DeadheadArcs(tail=tail.astype(np.int64), head=head.astype(np.int64), seg=seg.astype(np.int64),
                         forward=fwd.astype(bool), minutes=dh[seg].astype(np.float64),
                         metres=net.seg_length[seg].astype(np.float64))
+
+
+def orient_under_bans(net: Network, tasks: TaskSet, arcs: DeadheadArcs) -> TaskSet:
+    """``tasks`` with each either-way pass fixed to its one direction a closed route can drive.
+
+    Under turn bans one direction of a two-way street may lie on no closed walk
+    through the depot while the other does (``arcs`` holds only those that do,
+    :func:`build_deadhead` with a depot); a pass served the wrong way round could
+    then never be joined to the route. Raises :class:`InputError` naming the
+    segments whose pass no closed route can drive (what
+    :func:`crewcut.solve.network.scope.scope_network` leaves out beforehand).
+    """
+    has = np.zeros((net.n_segments, 2), bool)
+    has[arcs.seg, arcs.forward.astype(np.int64)] = True
+    fwd = tasks.tail == net.seg_u[tasks.seg]
+    stuck = np.where(tasks.directed, ~has[tasks.seg, fwd.astype(np.int64)],
+                     ~has[tasks.seg, 0] & ~has[tasks.seg, 1])
+    if stuck.any():
+        bad = np.unique(tasks.seg[stuck])
+        shown = ", ".join(f"segment {int(s)} ('{net.seg_source[int(s)]}')" for s in bad[:8])
+        raise InputError(f"{bad.size} required segment(s) lie on no closed route from the depot once the turn "
+                         f"restrictions are kept: {shown}{' ...' if bad.size > 8 else ''}",
+                         "leave these segments out of the territory (the service scope does so with the policy "
+                         "leave_out), or check the restrictions and one-way directions near them")
+    loose = ~tasks.directed
+    only_fwd = loose & has[tasks.seg, 1] & ~has[tasks.seg, 0]
+    only_back = loose & has[tasks.seg, 0] & ~has[tasks.seg, 1]
+    if not (only_fwd.any() or only_back.any()):
+        return tasks
+    u, v = net.seg_u[tasks.seg], net.seg_v[tasks.seg]
+    return TaskSet(seg=tasks.seg, tail=np.where(only_back, v, tasks.tail).astype(np.int64),
+                   head=np.where(only_back, u, tasks.head).astype(np.int64),
+                   directed=tasks.directed | only_fwd | only_back, minutes=tasks.minutes, metres=tasks.metres)

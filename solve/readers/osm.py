@@ -49,6 +49,13 @@ a self-loop. Nodes missing from the file (an extract cut at its border) break a
 way; the part beyond is left out with a warning. Every segment keeps
 ``way/ID`` as its source id and ``node/ID`` labels for its end nodes.
 
+Turn restrictions: every ``type=restriction`` relation is read (a first pass over
+the file's relations, then the ways they name are kept with their node lists) and
+becomes forbidden turns of the network (``Network.turn_bans``) or a note saying
+why it was not applied (``Network.restrictions``); the rules are in
+:mod:`crewcut.solve.readers.osmturns`. A relation with broken members stops the
+read with its id.
+
 OpenStreetMap topology is explicit (shared node ids), so no snapping by distance
 and no split-at-touch is applied; only nodes at identical coordinates merge.
 Road class is the highway value; service is the profile's default for it.
@@ -72,14 +79,21 @@ from crewcut.solve.calendar.postings import swap_sides
 from crewcut.solve.readers.osmtags import way_postings  # posted sweeping times (own line: eases merges)
 from crewcut.solve.readers.osmtags import (WayRules, rules_for, size_verdict,
                                            way_direction, way_refusal)
+from crewcut.solve.readers.osmturns import (WayNodes, apply_restrictions, read_restriction_relations,
+                                            wanted_ways)
 from crewcut.solve.vehicle import SIZE_TAGS, Vehicle
 from crewcut.solve.network.repair import build_network
 
 LEFT_OUT_SHOWN = 5  # way ids named per reason in a finding
 
 
-def _collect(path: Path, rules: WayRules) -> tuple[list[tuple], dict, dict, dict]:
-    """Kept ways; way ids left out by tag, left out by size, and kept with an unreadable limit (by reason)."""
+def _collect(path: Path, rules: WayRules, wanted: set[int],
+             named: dict[int, WayNodes]) -> tuple[list[tuple], dict, dict, dict]:
+    """Kept ways; way ids left out by tag, left out by size, and kept with an unreadable limit (by reason).
+
+    The ways in ``wanted`` (named by turn restrictions) are put in ``named`` with their
+    node ids and why they were left out, if they were.
+    """
     import osmium
 
     ways = []
@@ -92,6 +106,8 @@ def _collect(path: Path, rules: WayRules) -> tuple[list[tuple], dict, dict, dict
             if not obj.is_way():
                 continue
             tags = obj.tags
+            if wanted and obj.id in wanted:
+                named[obj.id] = WayNodes(tuple(nd.ref for nd in obj.nodes), _left_out_why(tags, rules))
             if tags.get("highway") not in rules.highways:
                 continue
             reason = way_refusal(tags, rules)
@@ -123,6 +139,16 @@ def _collect(path: Path, rules: WayRules) -> tuple[list[tuple], dict, dict, dict
         raise InputError(f"{path}: not a readable OpenStreetMap file ({exc})",
                          "check that the file is complete and really .osm XML or .osm.pbf; download it again") from None
     return ways, refused, too_big, unreadable
+
+
+def _left_out_why(tags, rules: WayRules) -> str | None:
+    """Why a way is not read as a street for the vehicle, or None when it is."""
+    hw = tags.get("highway")
+    if hw is None:
+        return "not a highway"
+    if hw not in rules.highways:
+        return f"highway={hw} is not in the profile's osm.highways"
+    return way_refusal(tags, rules) or size_verdict(tags, rules.vehicle)[0]
 
 
 def _first(ids: list[int]) -> str:
@@ -159,7 +185,9 @@ def read_osm(path: str | Path, profile: Profile) -> Network:
     """Read drivable streets from an OpenStreetMap file into a :class:`~crewcut.solve.network.model.Network`."""
     path = Path(path)
     rules = rules_for(profile)
-    ways, refused, too_big, unreadable = _collect(path, rules)
+    relations = _restrictions(path)
+    named: dict[int, WayNodes] = {}
+    ways, refused, too_big, unreadable = _collect(path, rules, wanted_ways(relations), named)
     if too_big and not ways:
         sizes = ", ".join(f"vehicle.{k} = {v:g}" for k, v in profile.vehicle.sizes().items()
                           if SIZE_TAGS[k] in too_big)
@@ -190,6 +218,28 @@ def read_osm(path: str | Path, profile: Profile) -> Network:
             "use an extract that covers the whole working area with a margin"))
     if not runs:
         return build_network([], profile, findings=findings, source=str(path))
+    net = build_network(_lines(runs), dataclasses.replace(profile, snap_tolerance_m=0.0, split_at_touch=False),
+                        findings=findings, source=str(path))
+    if not relations:
+        return net
+    try:
+        return apply_restrictions(net, relations, named, profile.vehicle)
+    except InputError as exc:
+        raise InputError(f"{path}: {exc.message}", exc.hint) from None
+
+
+def _restrictions(path: Path) -> list:
+    import osmium
+
+    try:
+        return read_restriction_relations(path)
+    except (RuntimeError, ValueError, OverflowError, osmium.InvalidLocationError) as exc:  # pyosmium's errors
+        raise InputError(f"{path}: not a readable OpenStreetMap file ({exc})",
+                         "check that the file is complete and really .osm XML or .osm.pbf; download it again") from None
+
+
+def _lines(runs: list[tuple]) -> list[RawLine]:
+    """The ways' runs split into street lines at junctions (module notes)."""
     all_refs = np.concatenate([r[1] for r in runs])
     uniq, counts = np.unique(all_refs, return_counts=True)
     junction = set(uniq[counts >= 2].tolist())
@@ -212,5 +262,4 @@ def read_osm(path: str | Path, profile: Profile) -> Network:
                     source_id=f"way/{wid}", coords=ll[s:e + 1].copy(), name=name, road_class=hw,
                     oneway=1 if direction else 0, posted=posted, from_label=f"node/{int(refs[s])}",
                     to_label=f"node/{int(refs[e])}"))
-    exact = dataclasses.replace(profile, snap_tolerance_m=0.0, split_at_touch=False)
-    return build_network(lines, exact, findings=findings, source=str(path))
+    return lines

@@ -275,3 +275,60 @@ def territory_connected(plan: dict, crew_index: int) -> bool:
     start = segs[terr[0]]["from"]
     comp = nx.node_connected_component(g, start)
     return all(segs[s]["from"] in comp for s in terr)
+
+
+# ------------------------------------------------------------------ turn bans
+def forbidden_turns_made(steps, bans, depot: int) -> list[tuple[int, tuple]]:
+    """(step index, ban row) of every consecutive pair of ``steps`` that is a forbidden turn.
+
+    ``steps``: (segment, forward, from_node) in driving order; ``bans``: rows
+    (arrive_seg, arrive_fwd, depart_seg, depart_fwd). A turn made at ``depot`` (the
+    step starts there) is not counted: the crew turns in its yard there (the rule
+    the product documents; pass depot=-1 to count every turn). Plain Python, on purpose.
+    """
+    ban = {tuple(int(x) for x in r) for r in bans}
+    out = []
+    for i in range(1, len(steps)):
+        (s0, f0, *_), (s1, f1, *rest) = steps[i - 1], steps[i]
+        if rest and rest[0] == depot:
+            continue
+        row = (int(s0), int(f0), int(s1), int(f1))
+        if row in ban:
+            out.append((i, row))
+    return out
+
+
+def nx_servable_directions(net: Network, depot: int, bans, ignore_oneway: bool = False) -> set[tuple[int, int]]:
+    """(segment, forward) directions that lie on some closed walk from ``depot`` over legal turns.
+
+    networkx on the line graph built here from the segment arrays: a state per legal
+    direction of every open segment, a move for every turn at a shared node that is
+    not in ``bans``, and a yard state joined to every direction leaving or reaching
+    the depot (the crew may turn any way in its yard). A direction is servable when it
+    is reachable from the yard and the yard is reachable from it (networkx descendants
+    and ancestors).
+    """
+    g = nx.DiGraph()
+    dirs = []
+    for s in range(net.n_segments):
+        if net.seg_closed[s]:
+            continue
+        u, v = int(net.seg_u[s]), int(net.seg_v[s])
+        dirs.append((s, 1, u, v))
+        if ignore_oneway or not net.seg_oneway[s]:
+            dirs.append((s, 0, v, u))
+    by_tail: dict[int, list] = {}
+    for d in dirs:
+        by_tail.setdefault(d[2], []).append(d)
+    ban = {tuple(int(x) for x in r) for r in bans}
+    g.add_node("yard")
+    for s, f, a, b in dirs:
+        g.add_node((s, f))
+        if a == depot:
+            g.add_edge("yard", (s, f))
+        if b == depot:
+            g.add_edge((s, f), "yard")
+        for s2, f2, _, _ in by_tail.get(b, []):
+            if (s, f, s2, f2) not in ban:
+                g.add_edge((s, f), (s2, f2))
+    return (nx.descendants(g, "yard") & nx.ancestors(g, "yard")) - {"yard"}

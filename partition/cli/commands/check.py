@@ -9,7 +9,7 @@ from crewcut.solve.network.diagnose import CheckReport, check_network
 from crewcut.solve.profile import load_profile
 from crewcut.solve.readers import read_network
 
-from crewcut.cli.tables import left_out_table
+from crewcut.cli.tables import left_out_table, restriction_table
 from crewcut.cli.commands.common import (add_network_arguments, add_scope_arguments, depot_from_args, line,
                                          measure_table, scope_area, styled)
 
@@ -85,6 +85,8 @@ def _print(ui, path, profile_name: str, depot_text: str, r: CheckReport, outside
         out.print(p)
     if r.left_out:
         out.print(left_out_table(r.left_out))
+    if r.restrictions:
+        out.print(restriction_table(r.restrictions))
     n, km = len(r.trapped), sum(x.length_m for x in r.trapped) / 1000
     if r.plannable and n:
         verdict = (("plannable", "bold green"), f": {n:,} street segment(s) ({km:,.2f} km) that no closed route can "

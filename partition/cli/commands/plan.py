@@ -69,7 +69,7 @@ def run(args, ui) -> int:
         written = atomic_write_many([(out_dir / "plan.json", plan_to_json(plan)),
                                      (out_dir / "signage.csv", signage_csv(plan))])
         path = written[0]
-    _print(ui, plan, path, seconds)
+    _print(ui, plan, path, seconds, net.restrictions)
     return 0
 
 
@@ -96,7 +96,7 @@ def _cycle(args, profile):
     return make_cycle(args.days, start, "--days", as_parameters=True)
 
 
-def _print(ui, plan, path: Path, seconds: float) -> None:
+def _print(ui, plan, path: Path, seconds: float, restrictions=()) -> None:
     # The workload table's caption already gives longest / mean, the bound, the gap
     # and the crews over their limit; add only what the table does not say.
     from crewcut.cli.tables import workload_table
@@ -123,4 +123,8 @@ def _print(ui, plan, path: Path, seconds: float) -> None:
         from crewcut.cli.tables import left_out_table
 
         ui.out.print(left_out_table(plan.left_out))
+    if restrictions:  # the network file's turn restrictions: the routes make none of the turns applied ones forbid
+        from crewcut.cli.tables import restriction_table
+
+        ui.out.print(restriction_table(restrictions))
     ui.out.print(f"plan written to {path} ({seconds:.1f} s)")

@@ -79,6 +79,10 @@ def run(args, ui) -> int:
         from crewcut.cli.tables import left_out_table
 
         ui.out.print(left_out_table(scope.left_out))
+    if net.restrictions:
+        from crewcut.cli.tables import restriction_table
+
+        ui.out.print(restriction_table(net.restrictions))
     _print(ui, args.network, profile.name, depot_text, route, path)
     return 0
 
@@ -106,9 +110,12 @@ def _print(ui, source, profile_name: str, depot_text: str, route, path: Path) ->
     q.add_row("deadhead proven least", "yes" if route.exact else "no (heuristic)", "")
     q.add_row("lower bound (service, deadhead, forced turns)", f"{route.lower_bound_min:,.1f}", "min")
     q.add_row("gap (total with turns over the bound)", f"{100 * route.gap:,.2f}", "%")
+    st = route.stats
+    if "detours" in st:  # the network holds forbidden turns
+        q.add_row("detours round forbidden turns", f"{st['detours']:,} ({st['detour_min']:,.1f} min deadhead)", "")
+        q.add_row("turns in the depot's yard that a restriction forbids on the street", f"{st['yard_turns']:,}", "")
     out.print(q)
 
-    st = route.stats
     turns = Table(title="Turns", title_justify="left")
     turns.add_column("turn")
     aware = str(st.get("circuit", "")).startswith("turn-aware")
