@@ -19,7 +19,8 @@ Method
    position in the order. Each block is a closed route from an anchor node (its
    node nearest the previous anchor), joined by least-minute deadhead paths
    (scipy's Dijkstra on the legal driving directions); turns are classified
-   again along the whole walk.
+   again along the whole walk. A joined walk that would make a turn the network
+   forbids (:mod:`crewcut.solve.circuits.bans`) is dropped; the plain route never does.
 3. The candidate that meets every window with the fewest total minutes wins;
    if none meets them all, the one with the least lateness, and the route's
    ``stats["window_misses"]`` counts the passes outside their windows.
@@ -33,6 +34,7 @@ from scipy import sparse
 from scipy.sparse.csgraph import dijkstra
 
 from crewcut.solve.calendar.clock import window_misses, with_waits
+from crewcut.solve.circuits.bans import BanTable
 from crewcut.solve.circuits.turns import TurnModel
 from crewcut.solve.network.model import Network
 from crewcut.solve.postman.tasks import build_deadhead
@@ -81,7 +83,9 @@ def plan_day_route(net: Network, profile: Profile, depot: int, segments, start_m
         for pos in positions:
             groups = order[:pos] + ([free] if free else []) + order[pos:]
             walk = _chain(net, profile, depot, groups, paths, subs, turn_aware, time_limit_s, seed)
-            cands.append((_returned(net, walk, turns), "window blocks joined by least-minute paths; heuristic", False))
+            if not _forbidden(net, walk, depot):  # the joins take no turn a restriction forbids
+                cands.append((_returned(net, walk, turns), "window blocks joined by least-minute paths; heuristic",
+                              False))
     best = None
     for i, (trav, method, exact) in enumerate(cands):
         timed, late = with_waits(trav, start_min, windows)
@@ -153,6 +157,18 @@ def _chain(net, profile, depot, groups, paths: _Paths, subs: dict, turn_aware, t
         cur = anchor
     walk += paths.walk(cur, depot)
     return walk
+
+
+def _forbidden(net: Network, walk: list[Traversal], depot: int) -> bool:
+    """Does the walk make a turn the network forbids (other than in the depot's yard)?"""
+    bans = BanTable.of(net)
+    if bans is None or len(walk) < 2:
+        return False
+    seg = np.array([t.segment for t in walk], np.int64)
+    fwd = np.array([t.from_node for t in walk], np.int64) == net.seg_u[seg]
+    at = np.array([t.to_node for t in walk[:-1]], np.int64)
+    hit = bans.banned(seg[:-1], fwd[:-1], seg[1:], fwd[1:]) & (at != depot)
+    return bool(hit.any())
 
 
 def _returned(net: Network, walk: list[Traversal], turns: TurnModel) -> list[Traversal]:
