@@ -141,7 +141,7 @@ def augmented_traversals(net: Network, profile: Profile, depot: int, segments=No
 
 
 def plan_route(net: Network, profile: Profile, depot: int, segments=None, *, turn_aware: bool = True,
-               time_limit_s: float = 10.0, seed: int = 0) -> Route:
+               time_limit_s: float = 10.0, seed: int = 0, lower_bound: bool = True) -> Route:
     """A closed route from ``depot`` serving every required pass of ``segments``.
 
     Parameters
@@ -159,6 +159,9 @@ def plan_route(net: Network, profile: Profile, depot: int, segments=None, *, tur
         rather than plain Hierholzer.
     time_limit_s, seed:
         Passed to the Eulerization (used by its mixed-case search).
+    lower_bound:
+        Compute the route's lower bound (default); False leaves ``lower_bound_min`` at 0
+        (a valid but empty bound) for callers that only need the walk.
 
     Returns
     -------
@@ -217,5 +220,6 @@ def plan_route(net: Network, profile: Profile, depot: int, segments=None, *, tur
     return Route(depot=depot, traversals=traversals, totals=totals,
                  method=f"{aug.method}; {'turn-aware circuit' if turn_aware else 'Hierholzer circuit'}",
                  exact=bool(aug.exact) and not ban_stats.get("detours"),  # a detour's deadhead is not proven least
-                 lower_bound_min=route_lower_bound(net, profile, depot, trav.tasks, trav.arcs, aug.lower_bound),
+                 lower_bound_min=(route_lower_bound(net, profile, depot, trav.tasks, trav.arcs, aug.lower_bound)
+                                  if lower_bound else 0.0),
                  stats=stats)

@@ -71,7 +71,7 @@ def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--cases", default="20000:12:5,100000:40:10")
     ap.add_argument("--workers", type=int, default=2)
-    ap.add_argument("--posted", type=float, default=0.15)
+    ap.add_argument("--posted", type=float, default=0.15, help="share of streets posted (0: only the unposted run)")
     ap.add_argument("--seed", type=int, default=0)
     a = ap.parse_args()
     profile = dataclasses.replace(builtin_profile("curb-sweeping"), crews=())
@@ -88,7 +88,7 @@ def main() -> None:
             days = ("mon", "tue", "wed", "thu", "fri") if d == 5 else tuple(
                 f"{w}{i}" for i in (1, 2) for w in ("mon", "tue", "wed", "thu", "fri"))[:d]
             cyc = make_cycle(list(days), "06:00")
-            for share in (0.0, a.posted):
+            for share in (0.0, a.posted) if a.posted > 0 else (0.0,):
                 net = net0 if share == 0 else dataclasses.replace(
                     net0, seg_posting=posted_districts(net0, profile, days, share, a.seed))
                 t0 = time.perf_counter()

@@ -109,7 +109,8 @@ def plan_cycle(net: Network, profile: Profile, crews: list[Crew], cycle: Cycle, 
         allowed[i, np.isin(pinned, off)] = False
     if (pinned >= 0).any():
         plans, scope, net = _by_day(net, profile, crews, cycle, working, pinned, allowed, seed=seed, workers=workers,
-                                    time_limit_s=time_limit_s, tolerance=tolerance, max_iterations=max_iterations,
+                                    time_limit_s=time_limit_s, tolerance=tolerance, day_tolerance=day_tolerance,
+                                    max_iterations=max_iterations,
                                     route_time_limit_s=route_time_limit_s, report=report, area=area,
                                     unservable=unservable)
     else:
@@ -166,7 +167,7 @@ def _territories_first(net, profile, crews, cycle, working, pinned, allowed, *, 
 
 
 def _by_day(net, profile, crews, cycle, working, pinned, allowed, *, seed, workers, time_limit_s, tolerance,
-            max_iterations, route_time_limit_s, report, area, unservable):
+            day_tolerance, max_iterations, route_time_limit_s, report, area, unservable):
     """Where streets are posted: a region per crew-day (:mod:`crewcut.cycle.byday`)."""
     reach = crews_reach(net, profile, crews, area=area, unservable=unservable, allowed=allowed)
     net = reach.net
@@ -175,7 +176,7 @@ def _by_day(net, profile, crews, cycle, working, pinned, allowed, *, seed, worke
                      start_min=cycle.shift_start_min) as router:
         out = plan_by_day(net, reach.sg, router, crews, working, cycle.days, pinned, reach.eligible,
                           start_min=cycle.shift_start_min, seed=seed,
-                          tolerance=tolerance, max_iterations=max_iterations, time_limit_s=time_limit_s,
+                          tolerance=max(tolerance, day_tolerance), max_iterations=max_iterations, time_limit_s=time_limit_s,
                           progress=report)
     report("territories", 1, 1)
     plans = []

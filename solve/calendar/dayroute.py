@@ -67,6 +67,10 @@ def plan_day_route(net: Network, profile: Profile, depot: int, segments, start_m
     if not windows:
         return replace(base, start_min=float(start_min))
     cands: list[tuple[list[Traversal], str, bool]] = [(list(base.traversals), base.method, base.exact)]
+    timed0, late0 = with_waits(list(base.traversals), start_min, windows)
+    if late0 <= 1e-6 and sum(t.wait_minutes for t in timed0) < 1.0:
+        # the plain route meets every window without waiting: nothing the blocks could improve on
+        return _finish(base, timed0, base.method, base.exact, start_min, windows, 0, 1)
     blocks: dict[tuple[int, int], list[int]] = {}
     free = []
     for s in segs:
@@ -76,7 +80,7 @@ def plan_day_route(net: Network, profile: Profile, depot: int, segments, start_m
             free.append(s)
     order = [blocks[w] for w in sorted(blocks)]
     if len(order) > 1 or free:
-        paths = _Paths(net, profile, depot)
+        paths = _paths(net, profile, depot)
         turns = TurnModel.from_network(net, profile)
         subs: dict[int, Route] = {}
         positions = range(len(order) + 1) if free else [len(order)]
@@ -94,11 +98,30 @@ def plan_day_route(net: Network, profile: Profile, depot: int, segments, start_m
         if best is None or key < best[0]:
             best = (key, timed, method, exact)
     _, timed, method, exact = best
+    return _finish(base, timed, method, exact, start_min, windows, len(order), len(cands))
+
+
+def _finish(base: Route, timed, method: str, exact: bool, start_min: float, windows, blocks: int,
+            candidates: int) -> Route:
     stats = dict(base.stats)
-    stats.update(window_blocks=len(order), window_misses=len(window_misses(timed, start_min, windows)),
-                 candidates=len(cands))
+    stats.update(window_blocks=blocks, window_misses=len(window_misses(timed, start_min, windows)),
+                 candidates=candidates)
     return Route(depot=base.depot, traversals=tuple(timed), totals=RouteTotals.of(timed), method=method,
                  exact=exact, lower_bound_min=base.lower_bound_min, stats=stats, start_min=float(start_min))
+
+
+_PATHS: dict = {}
+
+
+def _paths(net: Network, profile: Profile, depot: int) -> "_Paths":
+    """The path table of a depot, kept for the last few (network, profile, depot) asked for in this process."""
+    key = (id(net), id(profile), int(depot))
+    hit = _PATHS.get(key)
+    if hit is None or hit.net is not net:
+        if len(_PATHS) >= 8:
+            _PATHS.pop(next(iter(_PATHS)))
+        hit = _PATHS[key] = _Paths(net, profile, depot)
+    return hit
 
 
 class _Paths:
@@ -107,15 +130,14 @@ class _Paths:
     def __init__(self, net: Network, profile: Profile, depot: int) -> None:
         arcs = build_deadhead(net, profile, depot)
         self.arcs = arcs
-        order = np.lexsort((arcs.seg, arcs.minutes))  # cheapest arc first; lowest segment on ties
-        best: dict[tuple[int, int], int] = {}
-        for a in order.tolist():
-            best.setdefault((int(arcs.tail[a]), int(arcs.head[a])), a)
-        self.best = best
-        keys = np.array(sorted(best), np.int64).reshape(-1, 2)
-        w = np.array([arcs.minutes[best[(int(t), int(h))]] for t, h in keys]) + 1e-9
         n = net.n_nodes
-        self.g = sparse.csr_matrix((w, (keys[:, 0], keys[:, 1])), shape=(n, n))
+        order = np.lexsort((arcs.seg, arcs.minutes))  # cheapest arc first; lowest segment on ties
+        key = arcs.tail[order] * n + arcs.head[order]
+        _, first = np.unique(key, return_index=True)  # the cheapest arc of every (tail, head) pair
+        pick = order[first]
+        self.best = {(int(t), int(h)): int(a) for t, h, a in zip(arcs.tail[pick].tolist(), arcs.head[pick].tolist(),
+                                                                 pick.tolist())}
+        self.g = sparse.csr_matrix((arcs.minutes[pick] + 1e-9, (arcs.tail[pick], arcs.head[pick])), shape=(n, n))
         self.net = net
 
     def walk(self, a: int, b: int) -> list[Traversal]:
@@ -151,7 +173,7 @@ def _chain(net, profile, depot, groups, paths: _Paths, subs: dict, turn_aware, t
         anchor = _anchor(net, g, cur)
         if (key, anchor) not in subs:
             subs[(key, anchor)] = plan_route(net, profile, anchor, g, turn_aware=turn_aware,
-                                             time_limit_s=time_limit_s, seed=seed)
+                                             time_limit_s=time_limit_s, seed=seed, lower_bound=False)
         walk += paths.walk(cur, anchor)
         walk += list(subs[(key, anchor)].traversals)
         cur = anchor
