@@ -37,7 +37,8 @@ from crewcut.solve.result import Route
 from crewcut.fleet.balancer import BalanceReport, FleetState, balance
 from crewcut.fleet.executor import RouteJob, Router
 from crewcut.fleet.streets import StreetGraph
-from crewcut.fleet.territories import DEADHEAD_ALLOWANCE, attach_leftovers, describe_segment, territories_of
+from crewcut.fleet.territories import (DEADHEAD_ALLOWANCE, attach_leftovers, describe_segment, grow_least_loaded,
+                                      push_neighbours, territories_of)
 
 
 @dataclass(frozen=True)
@@ -129,23 +130,10 @@ def grow_days(net: Network, sg: StreetGraph, owner: np.ndarray, eligible: np.nda
         if i not in centres:
             centres[i] = np.array([sg.mid_x[free].mean(), sg.mid_y[free].mean()]) if free.size else np.zeros(2)
         for s in np.flatnonzero(owner == i).tolist():
-            _push(sg, s, centres[i], owner, fronts[i])
+            push_neighbours(sg, s, i, owner, centres, fronts[i])
     turn = [(load[i], i) for i in active if fronts[i]]
     heapq.heapify(turn)
-    while turn:
-        _, i = heapq.heappop(turn)
-        got = -1
-        while fronts[i]:
-            _, s = heapq.heappop(fronts[i])
-            if owner[s] < 0 and eligible[i, s]:
-                got = s
-                break
-        if got < 0:
-            continue
-        owner[got] = i
-        load[i] += est[got]
-        _push(sg, got, centres[i], owner, fronts[i])
-        heapq.heappush(turn, (load[i], i))
+    grow_least_loaded(sg, owner, eligible, fronts, turn, load, est, centres)
     left = np.flatnonzero(sg.required & (owner < 0))
     if left.size:
         attach_leftovers(sg, owner, eligible, left)
@@ -159,13 +147,3 @@ def grow_days(net: Network, sg: StreetGraph, owner: np.ndarray, eligible: np.nda
         i = int(min(ok.tolist(), key=lambda a: (load[a], a)))
         owner[s] = i
         load[i] += est[s]
-
-
-def _push(sg: StreetGraph, s: int, centre: np.ndarray, owner: np.ndarray, front: list) -> None:
-    nb = sg.neighbours(s)
-    nb = nb[owner[nb] < 0]
-    if nb.size == 0:
-        return
-    dist = np.hypot(sg.mid_x[nb] - centre[0], sg.mid_y[nb] - centre[1])
-    for dd, t in zip(dist.tolist(), nb.tolist()):
-        heapq.heappush(front, (dd, t))

@@ -46,7 +46,7 @@ from crewcut.solve.readers.area import ServiceArea
 
 from crewcut.cycle.byday import plan_by_day
 from crewcut.cycle.days import split_days
-from crewcut.fleet.assemble import crews_needed, route_and_balance
+from crewcut.fleet.assemble import crews_needed, route_and_balance, summary_figures
 from crewcut.fleet.executor import LocalRouter, check_workers
 from crewcut.fleet.planner import crews_reach, lay_out_territories, plan_checks
 from crewcut.fleet.progress import ProgressFn, with_log
@@ -249,16 +249,8 @@ def cycle_summary(net: Network, plans: list[CrewPlan], working: list[tuple[str, 
         for r in p.routes:
             segs = {x.segment for x in r.traversals if x.service}
             misses += len(window_misses(r.traversals, r.start_min or 0.0, posted_windows(net, segs)))
-    dead_km = sum(r.totals.deadhead_km for p in plans for r in p.routes)
-    serv_km = sum(r.totals.service_km for p in plans for r in p.routes)
-    longest, mean = float(shifts.max()), float(shifts.mean())
     capacity = np.array([p.shift_limit_min * len(w) for p, w in zip(plans, working)])
     return FleetSummary(
-        crews=len(plans), longest_min=longest, mean_min=mean, shortest_min=float(shifts.min()),
-        longest_over_mean=longest / mean if mean > 0 else 1.0, lower_bound_min=lb,
-        gap=longest / lb - 1.0 if lb > 0 else 0.0, total_shift_min=float(shifts.sum()),
-        service_min=sum(r.totals.service_min for p in plans for r in p.routes),
-        deadhead_min=sum(r.totals.deadhead_min for p in plans for r in p.routes),
-        deadhead_pct=100.0 * dead_km / (dead_km + serv_km) if dead_km + serv_km > 0 else 0.0,
+        **summary_figures(plans, shifts, lb),
         over_limit=over, crews_needed_estimate=crews_needed(float(shifts.sum()), 0.0, capacity),
         method=CYCLE_METHOD, crew_days=len(days), day_balance=balance, window_misses=misses)

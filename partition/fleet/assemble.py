@@ -97,27 +97,33 @@ def fleet_summary(plans: list[CrewPlan], lower_bound_min: float, bal: BalanceRep
     """Longest, mean, lower bound and gap, crews over their limit, and an estimate of the crews needed."""
     shifts = np.array([p.shift_min for p in plans])
     limits = np.array([p.shift_limit_min for p in plans])
-    longest, mean = float(shifts.max()), float(shifts.mean())
     over = tuple(OverLimit(p.id, p.shift_min, p.shift_limit_min, p.shift_min - p.shift_limit_min)
                  for p in plans if p.shift_min > p.shift_limit_min + 1e-9)
-    dead_km = sum(r.totals.deadhead_km for p in plans for r in p.routes)
-    serv_km = sum(r.totals.service_km for p in plans for r in p.routes)
     outcome = None
     if bal is not None:  # wall time is not part of the plan: same input, same bytes
         b = bal.to_dict()
         b.pop("seconds", None)
         outcome = BalanceOutcome(**b)
     return FleetSummary(
+        **summary_figures(plans, shifts, lower_bound_min),
+        over_limit=over, crews_needed_estimate=crews_needed(float(shifts.sum()), lower_bound_min, limits),
+        method=method, balance=outcome,
+        deferred_segments=len(deferred) if deferred else None,
+        deferred_min=float(sum(d.work_min for d in deferred)) if deferred else None)
+
+
+def summary_figures(plans: list[CrewPlan], shifts: np.ndarray, lower_bound_min: float) -> dict:
+    """The figures every fleet summary gives, from the shifts compared (crews' or days') and all routes."""
+    dead_km = sum(r.totals.deadhead_km for p in plans for r in p.routes)
+    serv_km = sum(r.totals.service_km for p in plans for r in p.routes)
+    longest, mean = float(shifts.max()), float(shifts.mean())
+    return dict(
         crews=len(plans), longest_min=longest, mean_min=mean, shortest_min=float(shifts.min()),
         longest_over_mean=longest / mean if mean > 0 else 1.0, lower_bound_min=lower_bound_min,
         gap=longest / lower_bound_min - 1.0 if lower_bound_min > 0 else 0.0, total_shift_min=float(shifts.sum()),
         service_min=sum(r.totals.service_min for p in plans for r in p.routes),
         deadhead_min=sum(r.totals.deadhead_min for p in plans for r in p.routes),
-        deadhead_pct=100.0 * dead_km / (dead_km + serv_km) if dead_km + serv_km > 0 else 0.0,
-        over_limit=over, crews_needed_estimate=crews_needed(float(shifts.sum()), lower_bound_min, limits),
-        method=method, balance=outcome,
-        deferred_segments=len(deferred) if deferred else None,
-        deferred_min=float(sum(d.work_min for d in deferred)) if deferred else None)
+        deadhead_pct=100.0 * dead_km / (dead_km + serv_km) if dead_km + serv_km > 0 else 0.0)
 
 
 def crews_needed(total_min: float, lower_bound_min: float, limits: np.ndarray) -> int:

@@ -65,23 +65,9 @@ def grow_territories(net: Network, sg: StreetGraph, centres: np.ndarray, seeds: 
             continue
         owner[s] = c
         load[c] = approach_min[c] + est[s]
-        _push_neighbours(sg, s, c, owner, centres, fronts[c])
+        push_neighbours(sg, s, c, owner, centres, fronts[c])
         heapq.heappush(turn, (load[c], c))
-    while turn:
-        _, c = heapq.heappop(turn)
-        front = fronts[c]
-        got = -1
-        while front:
-            _, s = heapq.heappop(front)
-            if owner[s] < 0 and eligible[c, s]:
-                got = s
-                break
-        if got < 0:
-            continue  # nothing left to take: this crew stops growing
-        owner[got] = c
-        load[c] += est[got]
-        _push_neighbours(sg, got, c, owner, centres, front)
-        heapq.heappush(turn, (load[c], c))
+    grow_least_loaded(sg, owner, eligible, fronts, turn, load, est, centres)
     left = np.flatnonzero(sg.required & (owner < 0))
     if left.size:
         attach_leftovers(sg, owner, eligible, left)
@@ -97,12 +83,38 @@ def grow_territories(net: Network, sg: StreetGraph, centres: np.ndarray, seeds: 
     return owner
 
 
-def _push_neighbours(sg: StreetGraph, s: int, c: int, owner: np.ndarray, centres: np.ndarray, front: list) -> None:
+def grow_least_loaded(sg: StreetGraph, owner: np.ndarray, eligible: np.ndarray, fronts, turn: list, load, est,
+                      centres) -> None:
+    """The growth loop territories and days share: the least loaded grower takes its nearest free neighbour.
+
+    ``turn`` is a heap of (load, grower); ``fronts[c]`` a heap of (distance to ``centres[c]``,
+    segment); ``load`` and ``centres`` are indexed by grower (arrays or dicts). In place on
+    ``owner``, ``load`` and the heaps; a grower stops when its front holds nothing it may take.
+    """
+    while turn:
+        _, c = heapq.heappop(turn)
+        front = fronts[c]
+        got = -1
+        while front:
+            _, s = heapq.heappop(front)
+            if owner[s] < 0 and eligible[c, s]:
+                got = s
+                break
+        if got < 0:
+            continue  # nothing left to take: this grower stops
+        owner[got] = c
+        load[c] += est[got]
+        push_neighbours(sg, got, c, owner, centres, front)
+        heapq.heappush(turn, (load[c], c))
+
+
+def push_neighbours(sg: StreetGraph, s: int, c: int, owner: np.ndarray, centres, front: list) -> None:
+    """Push the free neighbours of segment ``s`` on grower ``c``'s front, by distance to its centre."""
     nb = sg.neighbours(s)
     nb = nb[owner[nb] < 0]
     if nb.size == 0:
         return
-    d = np.hypot(sg.mid_x[nb] - centres[c, 0], sg.mid_y[nb] - centres[c, 1])
+    d = np.hypot(sg.mid_x[nb] - centres[c][0], sg.mid_y[nb] - centres[c][1])
     for dist, t in zip(d.tolist(), nb.tolist()):
         heapq.heappush(front, (dist, t))
 
