@@ -47,6 +47,10 @@ def _paths(out: Path) -> dict[str, str]:
         "report": str(out / "fleet" / "report.html"),
         "geojson": str(out / "fleet" / "routes.geojson"),
         "gpx": str(out / "fleet" / "routes.gpx"),
+        "cycle_dir": str(out / "week"),
+        "cycle_plan": str(out / "week" / "plan.json"),
+        "cycle_map": str(out / "week" / "days.svg"),
+        "cycle_sheets": str(out / "week" / "sheets"),
     }
 
 
@@ -66,6 +70,15 @@ STAGES: tuple[Stage, ...] = (
           ("plan",), ("geojson",)),
     Stage("export", lambda p: ["export", p["plan"], "--format", "gpx", "--out", p["gpx"]],
           ("plan",), ("gpx",)),
+    # a weekly sweeping cycle: three crews from the first yard, one route per crew and weekday
+    Stage("plan", lambda p: ["plan", p["town"], "--config", p["config"], "--crews", "3", "--days",
+                             "mon,tue,wed,thu,fri", "--shift-start", "06:00", "--out", p["cycle_dir"]],
+          ("town", "config"), ("cycle_plan",)),
+    Stage("verify", lambda p: ["verify", p["cycle_plan"], p["town"], "--config", p["config"]], ("cycle_plan",)),
+    Stage("map", lambda p: ["map", p["cycle_plan"], "--by-day", "--out", p["cycle_map"]], ("cycle_plan",),
+          ("cycle_map",)),
+    Stage("sheets", lambda p: ["sheets", p["cycle_plan"], "--out", p["cycle_sheets"]], ("cycle_plan",),
+          ("cycle_sheets",)),
 )
 
 
