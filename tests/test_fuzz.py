@@ -147,6 +147,28 @@ def test_malformed_service_area(base, seed, value):
 
 
 @FUZZ
+@given(posted=hostile | st.sampled_from(["tue 08:00-10:00", "tu 8:00-10:00", "sat", "mon 23:00-24:00",
+                                         "no_parking @ (Tu 08:00-10:00)", "tue 10:00-08:00", ""]),
+       side=st.sampled_from(["posted", "posted:left", "posted:right"]),
+       days=hostile | st.sampled_from(["mon,tue,wed", "mon1,tue1,mon2", "tue", "mon,,tue", "x" * 40]),
+       start=st.none() | hostile | st.sampled_from(["06:00", "24:00", "7:5", "-1:00"]))
+def test_hostile_postings_and_cycles(base, posted, side, days, start):
+    """Posted times and cycle settings as anyone might write them: a cycle plan or exit 2, nothing half-written."""
+    with _fresh() as tmp_path:
+        doc = json.loads(base["town"].read_text())
+        doc["features"] = doc["features"][:40]
+        for f in doc["features"][::5]:
+            f["properties"][side] = posted
+        path = tmp_path / "streets.geojson"
+        path.write_text(json.dumps(doc, ensure_ascii=False), encoding="utf-8", errors="surrogatepass")
+        argv = ["plan", str(path), "--crews", "2", "--depot", "-30.5,45.2", "--workers", "1", f"--days={days}",
+                "--out", str(tmp_path / "o")]
+        if start is not None:
+            argv.append(f"--shift-start={start}")
+        expect_clean(argv, [path], tmp_path)
+
+
+@FUZZ
 @given(rows=st.lists(st.lists(hostile | st.sampled_from(["1", "-1", "1e309", "nan", "yes", '"', 'a"b']),
                               max_size=6), max_size=6),
        header=st.sampled_from(["from,to,length_m", "from,to,length_m,oneway,name,speed_kmh", "from,to", ""]))

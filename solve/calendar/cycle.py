@@ -76,12 +76,14 @@ def make_cycle(days: object, shift_start: object = None, where: str = "cycle", *
     ``as_parameters``: errors name the library parameters ``days`` and ``shift_start``
     (a call's arguments) rather than only ``where`` (a config table).
     """
-    labels = check_days(days, where, param="days" if as_parameters else None)
+    at_days = "`days`" if as_parameters else where
+    at_start = "`shift_start`" if as_parameters else f"{where}: shift_start"
+    labels = check_days(days, at_days, param="days" if as_parameters else None)
     try:
-        start = DEFAULT_SHIFT_START_MIN if shift_start is None else parse_clock(shift_start, f"{where}: shift_start")
+        start = DEFAULT_SHIFT_START_MIN if shift_start is None else parse_clock(shift_start, at_start)
     except InputError as exc:
         raise InputError(exc.message, exc.hint, param="shift_start" if as_parameters else None) from None
     if start >= 24 * 60:
-        raise InputError(f"{where}: shift_start {clock(start)} is not within a day", "e.g. 06:00",
+        raise InputError(f"{at_start}: {clock(start)} is not within a day", "e.g. 06:00",
                          param="shift_start" if as_parameters else None)
     return Cycle(labels, start)
