@@ -11,15 +11,19 @@ route gets more work in one window than the window can hold.
 
 Method
 ------
-1. Posted streets first, day by day: the streets posted for a day are grown into
-   as many regions as their work needs (the day's work over 70 % of a shift, and
-   each window's work over 70 % of the window; the share left for driving and
-   turns is common practice, no source), k-means centres over them (scikit-learn)
-   and connected growth as in :mod:`crewcut.cycle.days`.
+1. Posted streets first, day by day and window by window: the streets posted for
+   a window are grown into as many routes as their work needs (the work over 70 %
+   of the window, and over 70 % of a shift; the share left for driving and turns is
+   common practice, no source), routes holding no window yet first, then routes
+   whose windows do not overlap; k-means centres over them (scikit-learn) and
+   connected growth as in :mod:`crewcut.cycle.days`. Streets posted for the day
+   without a window come last.
 2. Every crew-day then grows over the free streets, least loaded first.
 3. Routes with clock times and posted windows, and the boundary balancer over all
    crew-days (:func:`crewcut.fleet.balancer.balance`; posted streets stay on their
-   day, a move that serves more passes outside their windows is never kept).
+   day, a move that serves more passes outside their windows is never kept); streets
+   still served outside their window are handed to another route of that day that
+   meets it, where one does.
 4. Which crew drives which region of a day is a free choice among crews with the
    same depot and limit: regions are given to crews so that each crew's days lie
    near each other (an assignment per day, scipy's ``linear_sum_assignment``,
@@ -33,6 +37,8 @@ from dataclasses import dataclass, replace
 import numpy as np
 from scipy.optimize import linear_sum_assignment
 
+from crewcut.solve.calendar.clock import window_misses
+from crewcut.solve.calendar.dayroute import posted_windows
 from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Crew
 from crewcut.solve.result import Route
@@ -74,16 +80,25 @@ def plan_by_day(net: Network, sg: StreetGraph, router: Router, crews: list[Crew]
     est = sg.work * (1.0 + DEADHEAD_ALLOWANCE)
     windows = _windows(net, sg)
     for j, _ in enumerate(days):
-        posted = sg.required & (pinned == j)
-        if not posted.any():
-            continue
         cand = np.flatnonzero(day_of_slot == j)
-        need = _regions_needed(est, posted, windows, [crews[crew_of_slot[s]].shift_limit_min for s in cand])
-        use = cand[:need]
-        sub = replace(sg, required=posted)
-        elig = np.zeros((k2, m), bool)
-        elig[use] = eligible[use] & posted[None, :]
-        grow_days(net, sub, owner, elig, use, seed, "")
+        limits_j = [crews[crew_of_slot[s]].shift_limit_min for s in cand]
+        held: dict[int, list[tuple[int, int]]] = {int(t): [] for t in cand}  # windows each route holds
+        for win in _day_classes(sg, pinned, j, windows):
+            posted = sg.required & (pinned == j) & _in_class(sg, windows, win)
+            need = _regions_needed(est, posted, windows, limits_j)
+            # routes holding no window yet first, then those whose windows do not overlap this one
+            free_t = [t for t in held if not held[t]]
+            apart = [t for t in held if held[t] and win is not None and
+                     all(hi <= win[0] or lo >= win[1] for lo, hi in held[t])]
+            rest = [t for t in held if t not in free_t and t not in apart]
+            use = np.array((free_t + apart + rest)[:need], np.int64)
+            sub = replace(sg, required=posted)
+            elig = np.zeros((k2, m), bool)
+            elig[use] = eligible[use] & posted[None, :]
+            grow_days(net, sub, owner, elig, use, seed, "")
+            for t in use.tolist():
+                if win is not None and (owner[posted] == t).any():
+                    held[t].append(win)
     # a route whose first window opens after the shift starts has that time to fill with free streets
     credit = {}
     for t in range(k2):
@@ -98,12 +113,51 @@ def plan_by_day(net: Network, sg: StreetGraph, router: Router, crews: list[Crew]
     state = FleetState(owner=owner, routes=list(routes), depots=depots, limits=limits)
     bal = balance(state, sg, router, eligible, seed=seed, tolerance=tolerance, max_iterations=max_iterations,
                   time_limit_s=time_limit_s, progress=progress) if k2 > 1 else None
+    _repair_windows(net, state, router, eligible, day_of_slot, seed)
     order = _assign_crews(sg, state, slots, crews)
     routes_out = tuple(replace(state.routes[s], day=slots[t][1], stats={}) for t, s in enumerate(order))
     owner_out = np.full(m, -1, np.int64)
     for t, s in enumerate(order):
         owner_out[state.owner == s] = t
     return DayRoutes(tuple(slots), routes_out, owner_out, bal)
+
+
+def _missed(net: Network, route: Route) -> list[int]:
+    """Segments a route serves outside their posted windows."""
+    wins = posted_windows(net, {x.segment for x in route.traversals if x.service})
+    return sorted({route.traversals[i].segment for i in window_misses(route.traversals, route.start_min or 0.0, wins)})
+
+
+def _repair_windows(net: Network, state: FleetState, router: Router, eligible: np.ndarray, day_of_slot: np.ndarray,
+                    seed: int, rounds: int = 4) -> None:
+    """Hand streets served outside their window to another route of the same day that meets it (in place).
+
+    Step 3's last word: for each route that still misses a window, its missed streets are
+    offered to the routes of that day, least loaded first (three at most); a hand-over is
+    kept when the two routes together miss fewer passes.
+    """
+    for _ in range(rounds):
+        changed = False
+        for t in range(len(state.routes)):
+            segs = _missed(net, state.routes[t])
+            if not segs:
+                continue
+            same = [n for n in np.flatnonzero(day_of_slot == day_of_slot[t]).tolist()
+                    if n != t and eligible[n, segs].all()]
+            same.sort(key=lambda n: (state.routes[n].totals.total_min / state.limits[n], n))
+            before = len(segs)
+            for n in same[:3]:
+                owner = state.owner.copy()
+                owner[segs] = n
+                r_t, r_n = router.route_many([RouteJob.of(state.depots[t], np.flatnonzero(owner == t), seed),
+                                              RouteJob.of(state.depots[n], np.flatnonzero(owner == n), seed)])
+                if len(_missed(net, r_t)) + len(_missed(net, r_n)) < before + len(_missed(net, state.routes[n])):
+                    state.owner[:] = owner
+                    state.routes[t], state.routes[n] = r_t, r_n
+                    changed = True
+                    break
+        if not changed:
+            break
 
 
 def _windows(net: Network, sg: StreetGraph) -> dict[int, tuple[int, int]]:
@@ -114,6 +168,23 @@ def _windows(net: Network, sg: StreetGraph) -> dict[int, tuple[int, int]]:
             if p is not None and p.has_window:
                 out[s] = (int(p.open_min), int(p.close_min))
     return out
+
+
+def _day_classes(sg: StreetGraph, pinned: np.ndarray, j: int, windows: dict) -> list:
+    """The posted classes of day ``j``: each window (in order of opening), then the day without a window."""
+    segs = np.flatnonzero(sg.required & (pinned == j)).tolist()
+    wins = sorted({windows[s] for s in segs if s in windows})
+    return wins + ([None] if any(s not in windows for s in segs) else [])
+
+
+def _in_class(sg: StreetGraph, windows: dict, win) -> np.ndarray:
+    mask = np.zeros(sg.required.size, bool)
+    if win is None:
+        mask[:] = True
+        mask[list(windows)] = False
+    else:
+        mask[[s for s, w in windows.items() if w == win]] = True
+    return mask
 
 
 def _regions_needed(est: np.ndarray, posted: np.ndarray, windows: dict, limits: list[float]) -> int:
