@@ -37,6 +37,7 @@ from typing import Sequence
 
 from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Crew, Profile
+from crewcut.solve.errors import InputError
 
 from crewcut.fleet.changes import Changes
 from crewcut.fleet.progress import ProgressFn
@@ -72,7 +73,8 @@ def read_network(path: str | Path, profile: Profile | None = None) -> Network:
 def plan(network: Network, crews: Sequence[Crew] | None = None, profile: Profile | None = None, *,
          k: int | None = None, depot: tuple[float, float] | None = None, seed: int = 0,
          workers: int | None = None, time_limit_s: float | None = None,
-         progress: ProgressFn | None = None, source: str = "", area=None, unservable: str | None = None) -> Plan:
+         progress: ProgressFn | None = None, source: str = "", area=None, unservable: str | None = None,
+         cycle=None) -> Plan:
     """Balanced connected territories, one per crew, each with a closed route from its depot.
 
     Parameters
@@ -94,6 +96,10 @@ def plan(network: Network, crews: Sequence[Crew] | None = None, profile: Profile
         The service area (:func:`crewcut.solve.readers.area.read_area`; default: the
         profile's ``service_area``) and what to do with streets no closed route from a
         depot can serve: ``"leave_out"`` (listed in ``plan.left_out``) or ``"refuse"``.
+    cycle:
+        A sweeping cycle (:func:`crewcut.solve.calendar.cycle.make_cycle`, default: the
+        profile's ``[cycle]``, else none): one route per crew and working day, posted days and
+        windows kept (:func:`crewcut.cycle.planner.plan_cycle`).
 
     The method (cluster first, route second, boundary balancing) and the lower bound
     are described in :mod:`crewcut.fleet.planner`; the plan states its gap.
@@ -107,20 +113,35 @@ def plan(network: Network, crews: Sequence[Crew] | None = None, profile: Profile
     if crews is not None:
         profile = dataclasses.replace(profile, crews=tuple(crews))
     chosen = resolve_crews(network, profile, k=k, depot_lonlat=depot)
+    cycle = cycle if cycle is not None else profile.cycle
+    if cycle is not None:
+        from crewcut.cycle.planner import plan_cycle
+
+        return plan_cycle(network, profile, chosen, cycle, seed=seed, workers=workers, time_limit_s=time_limit_s,
+                          progress=progress, source=source, area=area, unservable=unservable)
     return plan_fleet(network, profile, chosen, seed=seed, workers=workers, time_limit_s=time_limit_s,
                       progress=progress, source=source, area=area, unservable=unservable)
 
 
 def replan(parent: Plan, changes: Changes, network: Network, *, profile: Profile | None = None,
            stability: float = 0.5, overflow: str | None = None, seed: int = 0, workers: int | None = None,
-           progress: ProgressFn | None = None) -> Plan:
+           progress: ProgressFn | None = None, day: str | None = None) -> Plan:
     """A new plan for the day's ``changes`` (absent or extra crews, closed or new streets, shorter shifts).
 
     Streets change hands as little as the shift limits allow (``stability``: minutes a
     move must save per street it takes from its crew); ``overflow`` is ``"defer"`` or
     ``"overtime"`` for work that does not fit. See :func:`crewcut.fleet.replan.replan`.
+    A cycle plan changes one ``day`` at a time (:func:`crewcut.cycle.replan_day.replan_day`).
     """
     from crewcut.fleet.replan import replan as _replan
+
+    if day is not None or parent.settings.options.cycle is not None:
+        from crewcut.cycle.replan_day import replan_day
+
+        if day is None:
+            raise InputError("the plan is a cycle plan: its changes are for one day", "give `day`", param="day")
+        return replan_day(parent, network, changes, day, profile=profile, stability=stability, overflow=overflow,
+                          seed=seed, workers=workers, progress=progress)
 
     return _replan(parent, network, changes, profile=profile, stability=stability, overflow=overflow, seed=seed,
                    workers=workers, progress=progress)
