@@ -110,6 +110,12 @@ def _print(ui, plan, path: Path, seconds: float, restrictions=()) -> None:
         ui.out.print(f"{s.crew_days} day routes; the most uneven crew's longest day is {s.day_balance:.3f} x its "
                      f"mean day; {s.window_misses} pass(es) outside their posted window; signage table in "
                      f"{path.parent / 'signage.csv'}")
+        if s.window_misses:
+            from crewcut.cli.commands.common import styled
+
+            ui.err.print(styled(f"warning: {s.window_misses} posted pass(es) are served outside their window; "
+                                "verify will refuse this plan. Post fewer streets in those windows, widen them, "
+                                "or add crews on those days", "yellow"))
     ui.out.print("the gap is an upper bound on how far this heuristic plan is from the best possible")
     b = s.balance
     if b:
