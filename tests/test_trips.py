@@ -233,8 +233,8 @@ def test_carptif_reader_matches_the_file():
     assert inst.header["NODES"] == int(head["NODES"]) and inst.header["CAPACITY"] == int(head["CAPACITY"])
     assert len(inst.required) == int(head["REQ_ARCS"]) + int(head["REQ_EDGES"])
     assert len(inst.other) == int(head["NOREQ_ARCS"]) + int(head["NOREQ_EDGES"])
-    assert inst.depot == int(head["DEPOT"]) - 1
-    assert inst.dumps == tuple(int(x) - 1 for x in head["DUMPING_SITES"].split(","))
+    assert inst.labels[inst.depot] == int(head["DEPOT"])
+    assert tuple(inst.labels[d] for d in inst.dumps) == tuple(int(x) for x in head["DUMPING_SITES"].split(","))
     demand = sum(int(ln.split("demand")[1]) for ln in lines if "demand" in ln)
     assert sum(r[5] for r in inst.required) == demand
     net, prof, depot = to_crewcut(inst)

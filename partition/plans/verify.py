@@ -24,7 +24,8 @@ In order, the first violation found is reported:
    the defer list and its policy (:mod:`crewcut.plans.verify_settings`);
 4. territories, routes, traversals, turns, forbidden turns (the network file's
    turn restrictions), route totals, coverage
-   (:mod:`crewcut.plans.verify_routes`);
+   (:mod:`crewcut.plans.verify_routes`); with capacities, the loads, facility
+   visits and their hours (:mod:`crewcut.plans.verify_trips`);
 5. the summary's figures, the crews over their limits, the lower bound and the
    gap (:mod:`crewcut.plans.verify_figures`).
 

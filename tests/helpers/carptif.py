@@ -5,7 +5,9 @@ Format: /work/shared/benchmarks/arc-routing/SOURCES.md section 4 (Willemse and J
 MIT licence): a header (``NODES``, ``REQ_EDGES``, ``REQ_ARCS``, ``NOREQ_*``, ``VEHICLES``,
 ``CAPACITY``, ``DUMPING_COST``, ``MAX_TRIP``), lists of ``(u,v) serv_cost S trav_cost T
 demand D`` (required) and ``(u,v) cost T`` (not required), ``DEPOT`` and ``DUMPING_SITES``.
-Nodes are numbered from 1 in the files, from 0 here.
+Nodes are numbered from 1 in most files, from 0 here; the Act-IF files label nodes with
+other integers (negative ones too), which are then numbered 0.. in the order of their labels
+(``Instance.labels`` keeps the file's label of every node).
 
 The instance becomes a crewcut network without geometry: a segment per link, its length
 ``T`` metres under a profile that deadheads one metre a minute (so deadhead minutes are
@@ -27,8 +29,8 @@ from crewcut.solve.trips.config import Capacity, Facility
 
 from helpers.nets import make_network
 
-_REQ = re.compile(r"\((\d+),(\d+)\)\s+serv_cost\s+(\d+(?:\.\d+)?)\s+trav?e?_cost\s+(\d+(?:\.\d+)?)\s+demand\s+(\d+(?:\.\d+)?)")
-_NOREQ = re.compile(r"\((\d+),(\d+)\)\s+cost\s+(\d+(?:\.\d+)?)")
+_REQ = re.compile(r"\((-?\d+),(-?\d+)\)\s+serv_cost\s+(\d+(?:\.\d+)?)\s+trav?e?_cost\s+(\d+(?:\.\d+)?)\s+demand\s+(\d+(?:\.\d+)?)")
+_NOREQ = re.compile(r"\((-?\d+),(-?\d+)\)\s+cost\s+(\d+(?:\.\d+)?)")
 
 
 @dataclass(frozen=True)
@@ -39,6 +41,8 @@ class Instance:
     other: list  # (u, v, directed, T)
     depot: int
     dumps: tuple[int, ...]
+    labels: tuple[int, ...]  # the file's label of node 0, 1, ...
+    n_nodes: int
 
 
 def read_instance(path: str | Path) -> Instance:
@@ -57,22 +61,30 @@ def read_instance(path: str | Path) -> Instance:
             section = s.split(":")[0].strip()
             continue
         if s.startswith("DEPOT"):
-            depot = int(s.split(":")[1]) - 1
+            depot = int(s.split(":")[1])
             continue
         if s.startswith("DUMPING_SITES"):
-            dumps = tuple(int(x) - 1 for x in s.split(":")[1].split(","))
+            dumps = tuple(int(x) for x in s.split(":")[1].split(","))
             continue
         directed = section is not None and section.endswith("ARCS")
         m = _REQ.match(s)
         if m and section and "NOREQ" not in section:
             u, v, sc, tc, d = m.groups()
-            req.append((int(u) - 1, int(v) - 1, directed, float(sc), float(tc), float(d)))
+            req.append((int(u), int(v), directed, float(sc), float(tc), float(d)))
             continue
         m = _NOREQ.match(s)
         if m:
             u, v, tc = m.groups()
-            other.append((int(u) - 1, int(v) - 1, directed, float(tc)))
-    return Instance(Path(path).name, header, req, other, int(depot), dumps)
+            other.append((int(u), int(v), directed, float(tc)))
+    used = sorted({r[0] for r in req + other} | {r[1] for r in req + other} | {depot, *dumps})
+    if all(1 <= x <= header["NODES"] for x in used):
+        labels = tuple(range(1, header["NODES"] + 1))
+    else:
+        labels = tuple(used)
+    at = {x: i for i, x in enumerate(labels)}
+    req = [(at[u], at[v], *rest) for u, v, *rest in req]
+    other = [(at[u], at[v], *rest) for u, v, *rest in other]
+    return Instance(Path(path).name, header, req, other, at[depot], tuple(at[x] for x in dumps), labels, len(labels))
 
 
 def to_crewcut(inst: Instance) -> tuple:
@@ -80,7 +92,7 @@ def to_crewcut(inst: Instance) -> tuple:
     rows = [(u, v, dr, SERVICE_ONE_PASS) for u, v, dr, *_ in inst.required] + \
            [(u, v, dr, SERVICE_NONE) for u, v, dr, _ in inst.other]
     lengths = [max(t, 1e-6) for *_, t, _d in inst.required] + [max(t, 1e-6) for *_, t in inst.other]
-    n = inst.header["NODES"]
+    n = inst.n_nodes
     net = make_network(n, [r[0] for r in rows], [r[1] for r in rows], lengths,
                        oneway=[r[2] for r in rows], service=[r[3] for r in rows])
     classes = [f"r{i}" for i in range(len(inst.required))] + ["default"] * len(inst.other)
