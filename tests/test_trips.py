@@ -308,3 +308,18 @@ def test_trips_settings_refuse_unknown_keys():
     caps = capacities_from_config({"hopper": {"limit": 1, "per_km": {"default": 1}}}, "t")
     with pytest.raises(InputError, match="not a capacity"):
         facilities_from_config([{"id": "x", "kind": "dump_site", "node": 0, "resets": ["salt"]}], caps, "t")
+
+
+def test_route_command_splits_and_verify_accepts(tmp_path, capsys):
+    net, cfg = _town(tmp_path, CAP.format(limit=1.5) + FAC.format(loc="LON, LAT", hours="05:00-22:00"))
+    out = tmp_path / "out"
+    assert main(["route", str(net), "--config", str(cfg), "--out", str(out)]) == 0
+    doc = json.loads((out / "plan.json").read_text())
+    route = doc["crews"][0]["routes"][0]
+    assert route["visits"] and route["totals"]["visit_min"] == pytest.approx(10 * len(route["visits"]))
+    capsys.readouterr()
+    assert main(["verify", str(out / "plan.json"), str(net), "--config", str(cfg)]) == 0
+    # a forged load: the same plan checked against a smaller hopper fails, naming the capacity
+    cfg.write_text(cfg.read_text().replace("limit = 1.5", "limit = 1.0"))
+    assert main(["verify", str(out / "plan.json"), str(net), "--config", str(cfg)]) == 2
+    assert "hopper" in capsys.readouterr().err

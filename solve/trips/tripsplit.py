@@ -32,6 +32,7 @@ from dataclasses import replace
 
 import numpy as np
 
+from crewcut.solve.calendar.postings import clock
 from crewcut.solve.circuits.bans import BanTable
 from crewcut.solve.circuits.turns import TurnModel
 from crewcut.solve.errors import InputError
@@ -130,7 +131,9 @@ def split_route(net: Network, profile: Profile, route: Route, placed: tuple[Plac
     res = split_sequence(demand, limits, end_mask, gap, leave, options, fmin, fopen, fclose)
     if res is None:
         raise InputError(f"route from depot node {route.depot}: no split into trips keeps every capacity within its "
-                         "limit with the facilities open when the route reaches them",
+                         "limit with the facilities open when the route reaches them (the route alone takes "
+                         f"{route.totals.total_min / 60:.1f} h from {clock(start_min)}; facility hours are one "
+                         "interval within the day)",
                          "widen the facilities' hours, add a facility nearer the streets, or raise the capacities")
     cut_at = {c.after: c for c in res.cuts}
     out: list[Traversal] = tr[:svc[0] + 1]
