@@ -153,7 +153,13 @@ def _run(demand, limits, end_mask, gap, leave_clock, options, fac, *, with_clock
             if not ok.any():
                 continue
             delta = extra[ok] - float(gap[k])
-            parts.append((cost[ok] + delta, cx[ok] + delta + opt.slack, nl[ok], idx[ok], np.full(int(ok.sum()), j)))
+            if opt.mask == (1 << n_cap) - 1:  # every load reset: one label (the cheapest) is all that can matter
+                pick = np.lexsort((cx[ok] + delta, cost[ok] + delta))
+                best = pick[:1] if not with_clock else pick[_front(cost[ok][pick] + delta[pick],
+                                                                    cx[ok][pick] + delta[pick])]
+                ok = np.flatnonzero(ok)[best]
+                delta = delta[best]
+            parts.append((cost[ok] + delta, cx[ok] + delta + opt.slack, nl[ok], idx[ok], np.full(idx[ok].size, j)))
         c_, x_, l_, p_, o_ = (np.concatenate([q[i] for q in parts]) for i in range(5))
         if c_.size == 0:
             return None, bound
@@ -176,6 +182,12 @@ def _run(demand, limits, end_mask, gap, leave_clock, options, fac, *, with_clock
     return Split(tuple(reversed(cuts)), added, total), bound
 
 
+def _front(cost: np.ndarray, clock: np.ndarray) -> np.ndarray:
+    """Positions (in the given cost order) on the (cost, clock) front: each clock below every earlier one."""
+    prev = np.concatenate([[np.inf], np.minimum.accumulate(clock)[:-1]])
+    return np.flatnonzero(clock < prev - 1e-12)
+
+
 def _pareto(cost: np.ndarray, clock: np.ndarray | None, loads: np.ndarray) -> np.ndarray:
     """Indices of the labels no other beats or equals on cost, (clock) and every load; deterministic."""
     cols = [loads[:, c] for c in range(loads.shape[1] - 1, -1, -1)]
@@ -186,19 +198,15 @@ def _pareto(cost: np.ndarray, clock: np.ndarray | None, loads: np.ndarray) -> np
         ld = loads[order, 0]
         prev = np.concatenate([[np.inf], np.minimum.accumulate(ld)[:-1]])
         return order[ld < prev - 1e-12]
-    kept: list[int] = []
-    kc = np.zeros(0)
-    kl = np.zeros((0, loads.shape[1]))
-    kx = np.zeros(0)
-    for i in order.tolist():
-        dom = (kc <= cost[i] + 1e-12) & (kl <= loads[i] + 1e-12).all(axis=1)
-        if clock is not None:
-            dom &= kx <= clock[i] + 1e-12
-        if dom.any():
+    keys = np.column_stack([cost] + ([clock] if clock is not None else []) + [loads[:, c] for c in
+                                                                             range(loads.shape[1])])[order]
+    kept = np.zeros(keys.shape, float)  # the labels kept so far, in order
+    out = np.zeros(order.size, np.int64)
+    k = 0
+    for i in range(order.size):
+        if k and (kept[:k] <= keys[i] + 1e-12).all(axis=1).any():
             continue
-        kept.append(i)
-        kc = np.append(kc, cost[i])
-        kl = np.vstack([kl, loads[i]])
-        if clock is not None:
-            kx = np.append(kx, clock[i])
-    return np.array(kept, np.int64)
+        kept[k] = keys[i]
+        out[k] = order[i]
+        k += 1
+    return out[:k]
