@@ -323,3 +323,19 @@ def test_route_command_splits_and_verify_accepts(tmp_path, capsys):
     cfg.write_text(cfg.read_text().replace("limit = 1.5", "limit = 1.0"))
     assert main(["verify", str(out / "plan.json"), str(net), "--config", str(cfg)]) == 2
     assert "hopper" in capsys.readouterr().err
+
+
+def test_cycle_day_routes_get_trips_from_their_clock_start():
+    from crewcut.cycle.planner import plan_cycle
+    from crewcut.solve.calendar.cycle import make_cycle
+
+    net = grid_network(4, 5)
+    cyc = make_cycle("mon,tue", "07:00")
+    prof = replace(_trip_profile(0.6), cycle=cyc)
+    crews = [Crew("a", 480.0, None, 0), Crew("b", 480.0, None, 19)]
+    plan = plan_cycle(net, prof, crews, cyc, seed=1, workers=1)
+    routes = [r for c in plan.crews for r in c.routes]
+    assert all(r.start_min == 420.0 for r in routes) and all(r.visits for r in routes)
+    assert not verify_plan(plan, net, prof).violations
+    for r in routes:
+        check_trip_route(net, prof, r, r.start_min)
