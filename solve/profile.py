@@ -15,6 +15,8 @@ from pathlib import Path
 from crewcut.solve.calendar.cycle import Cycle, check_days, make_cycle
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import SERVICE_NAMES
+from crewcut.solve.trips.config import (Capacity, Facility, capacities_from_config, check_trip_settings,
+                                        facilities_from_config)
 from crewcut.solve.vehicle import Vehicle, vehicle_from_dict
 
 UNSERVABLE_POLICIES = ("refuse", "leave_out")  # see crewcut.solve.network.scope
@@ -125,6 +127,8 @@ class Profile:
     cycle: Cycle | None = None  # the sweeping cycle ([cycle]); None: one shift per crew
     crews: tuple[Crew, ...] = ()
     source: str = "<built-in defaults>"
+    capacities: tuple[Capacity, ...] = ()  # [capacity.NAME]: what service uses up (crewcut.solve.trips.config)
+    facilities: tuple[Facility, ...] = ()  # [[facilities]]: dump sites, water points, salt depots
 
     # ------------------------------------------------------------ lookups
     def _by_class(self, table: dict, road_class: str):
@@ -155,6 +159,9 @@ class Profile:
             # what decides which OpenStreetMap ways become streets: a plan's network is read again with these
             "osm_highways": list(self.osm_highways), "osm_keep_service_kinds": list(self.osm_keep_service_kinds),
             "vehicle": {k: v for k, v in asdict(self.vehicle).items() if v is not None},
+            # only with trips, so that plans without them keep their bytes
+            **({"capacity": {c.name: c.to_config() for c in self.capacities},
+                "facilities": [f.to_config() for f in self.facilities]} if self.capacities else {}),
         }
 
     def with_recorded(self, base: "Profile") -> "Profile":
@@ -167,10 +174,17 @@ def recorded_fields(record: dict) -> dict:
 
     Keys that are not Profile fields are dropped; lists become tuples, tables dicts, the vehicle a Vehicle.
     """
-    names = {f.name for f in fields(Profile)}
+    names = {f.name for f in fields(Profile)} | {"capacity"}
     out: dict = {}
     for key, value in record.items():
         if key not in names:
+            continue
+        if key == "facilities":
+            continue  # read with "capacity"
+        if key == "capacity":
+            caps = capacities_from_config(value, "settings")
+            out["capacities"] = caps
+            out["facilities"] = facilities_from_config(record.get("facilities", []), caps, "settings")
             continue
         if key == "vehicle":
             value = Vehicle(**value)
@@ -207,7 +221,7 @@ def _at_most(where: str, key: str, value: float, top: float, unit: str) -> None:
 
 def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
     """Validate a parsed TOML document and build a :class:`Profile`."""
-    allowed = set(_SCHEMA) | set(_CLASS_TABLES) | {"crews", "vehicle"}
+    allowed = set(_SCHEMA) | set(_CLASS_TABLES) | {"crews", "vehicle", "capacity", "facilities"}
     for key in data:
         if key not in allowed:
             raise InputError(f"{source}: unknown table or key '{key}'",
@@ -361,6 +375,10 @@ def profile_from_dict(data: dict, source: str = "<dict>") -> Profile:
                              f"({', '.join(kw['cycle'].days)})", "name days of the cycle")
         built.append(Crew(id=cid, shift_limit_min=limit, depot_lonlat=lonlat, depot_node=node, days_off=off))
     kw["crews"] = tuple(built)
+    if "capacity" in data or "facilities" in data:
+        kw["capacities"] = capacities_from_config(data.get("capacity", {}), source)
+        kw["facilities"] = facilities_from_config(data.get("facilities", []), kw["capacities"], source)
+        check_trip_settings(kw["capacities"], kw["facilities"], source)
     return Profile(**kw)
 
 

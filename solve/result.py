@@ -55,9 +55,10 @@ class RouteTotals:
     u_turns: int
     across_turns: int
     wait_min: float = 0.0  # waiting for posted windows to open; part of total_min
+    visit_min: float = 0.0  # minutes at intermediate facilities (stays and waits for opening); part of total_min
 
     @staticmethod
-    def of(traversals: tuple[Traversal, ...] | list[Traversal]) -> "RouteTotals":
+    def of(traversals: tuple[Traversal, ...] | list[Traversal], visit_min: float = 0.0) -> "RouteTotals":
         s_km = sum(t.metres for t in traversals if t.service) / 1000.0
         d_km = sum(t.metres for t in traversals if not t.service) / 1000.0
         s_min = sum(t.minutes for t in traversals if t.service)
@@ -66,9 +67,29 @@ class RouteTotals:
         w_min = sum(t.wait_minutes for t in traversals)
         return RouteTotals(
             service_km=s_km, service_min=s_min, deadhead_km=d_km, deadhead_min=d_min,
-            turn_min=t_min, total_min=s_min + d_min + t_min + w_min,
+            turn_min=t_min, total_min=s_min + d_min + t_min + w_min + visit_min,
             u_turns=sum(t.turn == "u_turn" for t in traversals),
-            across_turns=sum(t.turn == "across_traffic" for t in traversals), wait_min=w_min)
+            across_turns=sum(t.turn == "across_traffic" for t in traversals), wait_min=w_min,
+            visit_min=float(visit_min))
+
+
+@dataclass(frozen=True)
+class Visit:
+    """A stop at an intermediate facility, between two traversals of a route.
+
+    ``after``: how many traversals of the route are driven before the stop (the vehicle
+    is at the end node of traversal ``after - 1``, which is the facility's ``node``).
+    ``arrive_min``: the clock time of arrival; the vehicle waits ``wait_min`` for the
+    facility to open, then stays ``minutes``; ``resets`` names the capacities reset.
+    """
+
+    after: int
+    facility: str
+    node: int
+    arrive_min: float
+    wait_min: float
+    minutes: float
+    resets: tuple[str, ...]
 
 
 @dataclass(frozen=True)
@@ -92,6 +113,7 @@ class Route:
     stats: dict = field(default_factory=dict)
     day: str | None = None
     start_min: float | None = None
+    visits: tuple[Visit, ...] = ()  # facility stops (trips); empty for a route without capacities
 
     @property
     def gap(self) -> float:

@@ -9,7 +9,7 @@ from crewcut.plans.view import PlanView, view
 from crewcut.reports.leftout import left_out_rows
 from crewcut.reports.restrictions import restriction_rows, shown_relations
 from crewcut.reports.textsafety import terminal_text
-from crewcut.reports.workload import COLUMNS, fmt, summary_lines, workload_rows
+from crewcut.reports.workload import columns, fmt, summary_lines, workload_rows
 
 
 def workload_table(plan: Plan | PlanView) -> Table:
@@ -18,11 +18,12 @@ def workload_table(plan: Plan | PlanView) -> Table:
     rows = workload_rows(pv)
     table = Table(title="Workload per crew", caption="\n".join(summary_lines(pv)), caption_justify="left",
                   show_footer=False, header_style="bold")
-    for _key, header, justify in COLUMNS:
+    cols = columns(pv)
+    for _key, header, justify in cols:
         table.add_column(header, justify=justify)
     for r in rows:
         over = r["row"] == "crew" and r["over_limit_min"] > 0
-        cells = [fmt(k, r[k]) for k, _h, _j in COLUMNS]
+        cells = [fmt(k, r[k]) for k, _h, _j in cols]
         if over:
             cells[-1] += " !"
         style = "bold red" if over else ("bold" if r["row"] == "total" else None)

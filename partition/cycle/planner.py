@@ -47,6 +47,7 @@ from crewcut.solve.readers.area import ServiceArea
 from crewcut.cycle.byday import plan_by_day
 from crewcut.cycle.days import split_days
 from crewcut.fleet.assemble import crews_needed, route_and_balance, summary_figures
+from crewcut.solve.trips.checks import check_trips
 from crewcut.fleet.executor import LocalRouter, check_workers
 from crewcut.fleet.planner import crews_reach, lay_out_territories, plan_checks
 from crewcut.fleet.progress import ProgressFn, with_log
@@ -94,6 +95,8 @@ def plan_cycle(net: Network, profile: Profile, crews: list[Crew], cycle: Cycle, 
     over its mean day is at most 1 + this). Crews' ``days_off`` name cycle days they do not work.
     """
     plan_checks(crews, seed, time_limit_s, tolerance, max_iterations)
+    check_trips(net, profile, [int(c.depot_node) for c in crews], [float(c.shift_limit_min) for c in crews],
+                cycle.shift_start_min)
     if not 0 <= day_tolerance < 1:
         raise InputError(f"`day_tolerance` is {day_tolerance!r}", "give a share in [0, 1), e.g. 0.03",
                          param="day_tolerance")

@@ -98,12 +98,18 @@ def solve_job(net: Network, profile: Profile, job: RouteJob, *, time_limit_s: fl
     if start_min is not None:
         from crewcut.solve.calendar.dayroute import plan_day_route
 
-        return plan_day_route(net, profile, job.depot, np.asarray(job.segments, np.int64), start_min,
-                              turn_aware=turn_aware, time_limit_s=time_limit_s, seed=job.seed)
-    from crewcut.solve.route import plan_route
+        route = plan_day_route(net, profile, job.depot, np.asarray(job.segments, np.int64), start_min,
+                               turn_aware=turn_aware, time_limit_s=time_limit_s, seed=job.seed)
+    else:
+        from crewcut.solve.route import plan_route
 
-    return plan_route(net, profile, job.depot, np.asarray(job.segments, np.int64), turn_aware=turn_aware,
-                      time_limit_s=time_limit_s, seed=job.seed)
+        route = plan_route(net, profile, job.depot, np.asarray(job.segments, np.int64), turn_aware=turn_aware,
+                           time_limit_s=time_limit_s, seed=job.seed)
+    if profile.capacities:  # trips: facility visits where the capacities call for them
+        from crewcut.solve.trips.route_trips import with_trips
+
+        route = with_trips(net, profile, route, start_min)
+    return route
 
 
 # ------------------------------------------------------------ routers

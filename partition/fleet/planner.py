@@ -38,6 +38,7 @@ from crewcut.solve.profile import Crew, Profile
 from crewcut.solve.circuits.turns import TurnModel
 
 from crewcut.fleet.assemble import finish_plan, route_and_balance
+from crewcut.solve.trips.checks import check_trips
 from crewcut.fleet.executor import LocalRouter, Router, check_workers
 from crewcut.fleet.progress import ProgressFn, with_log
 from crewcut.fleet.seeding import seed_territories
@@ -72,6 +73,8 @@ def plan_fleet(net: Network, profile: Profile, crews: list[Crew], *, seed: int =
     """
     plan_checks(crews, seed, time_limit_s, tolerance, max_iterations)
     check_workers(workers)
+    check_trips(net, profile, [int(c.depot_node) for c in crews], [float(c.shift_limit_min) for c in crews],
+                None)
     report = _progress(progress)
     lay = lay_out_territories(net, profile, crews, seed=seed, progress=report, area=area, unservable=unservable)
     net, sg, eligible, owner, border, scope = lay.net, lay.sg, lay.eligible, lay.owner, lay.border, lay.scope

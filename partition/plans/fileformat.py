@@ -21,7 +21,7 @@ from crewcut.solve.network.scope import LeftOutStreet
 from crewcut.solve.profile import Crew, Profile, crew_id_problem, profile_from_dict, recorded_fields
 from crewcut.solve.readers.area import ServiceArea
 from crewcut.solve.calendar.cycle import make_cycle
-from crewcut.solve.result import Route, RouteTotals, Traversal
+from crewcut.solve.result import Route, RouteTotals, Traversal, Visit
 
 from crewcut.plans.schema import schema_problem
 from crewcut.plans.model import (CHANGE_FIELDS, FORMAT, VERSION, BalanceLimits, BalanceOutcome, Change, CrewPlan,
@@ -86,6 +86,11 @@ def route_section(route: Route, rid: str = "route-1") -> dict:
     })
     if route.day is not None:
         doc["totals"]["wait_min"] = rnd(t.wait_min, 4)
+    if route.visits:  # trips only; other plans keep the bytes they always had
+        doc["totals"]["visit_min"] = rnd(t.visit_min, 4)
+        doc["visits"] = [{"after": v.after, "facility": v.facility, "node": v.node,
+                          "arrive_min": rnd(v.arrive_min, 4), "wait_min": rnd(v.wait_min, 5),
+                          "minutes": rnd(v.minutes, 5), "resets": list(v.resets)} for v in route.visits]
     return doc
 
 
@@ -287,6 +292,9 @@ def record_problem(plan: dict) -> str | None:
                     return f"crew '{cid}' route '{rid}': traversal {j} has a turn that is not text"
                 if "wait_minutes" in t and not (_is_finite(t["wait_minutes"]) and t["wait_minutes"] >= 0):
                     return f"crew '{cid}' route '{rid}': traversal {j} has a wait that is not 0 or more minutes"
+            problem = _visits_problem(r, len(trs))
+            if problem:
+                return f"crew '{cid}' route '{rid}': {problem}"
             if "day" in r and not (isinstance(r["day"], str) and _is_finite(r.get("start_min"))
                                    and _is_finite(r["totals"].get("wait_min", 0.0))):
                 return f"crew '{cid}' route '{rid}' has a day but no clock start (start_min) or wait total"
@@ -295,6 +303,24 @@ def record_problem(plan: dict) -> str | None:
             if bad:
                 return f"crew '{cid}' route '{rid}': totals lack or mangle {', '.join(bad)}"
     return _geometry_problem(net) or _settings_problem(plan.get("settings"))
+
+
+def _visits_problem(r: dict, n: int) -> str | None:
+    vs = r.get("visits", [])
+    if not isinstance(vs, list):
+        return "visits is not a list"
+    last = 0
+    for j, v in enumerate(vs):
+        ok = (isinstance(v, dict) and _is_int(v.get("after")) and last <= v["after"] <= n
+              and isinstance(v.get("facility"), str) and _is_int(v.get("node"))
+              and all(_is_finite(v.get(k)) and v[k] >= 0 for k in ("arrive_min", "wait_min", "minutes"))
+              and isinstance(v.get("resets"), list) and all(isinstance(x, str) for x in v["resets"]))
+        if not ok:
+            return f"visit {j} lacks or mangles after, facility, node, arrive_min, wait_min, minutes or resets"
+        last = v["after"]
+    if vs and not _is_finite(r["totals"].get("visit_min")):
+        return "has visits but no visit_min total"
+    return None
 
 
 def _pair(q) -> bool:
@@ -321,7 +347,7 @@ def _geometry_problem(net: dict) -> str | None:
 _PROFILE_TABLES = {"turn_penalty_s": None, "service_speed_kmh": None, "deadhead_speed_kmh": None,
                    "default_service": None, "priority": None, "snap_tolerance_m": "network", "split_at_touch": "network",
                    "vehicle": None, "osm_highways": ("osm", "highways"),
-                   "osm_keep_service_kinds": ("osm", "keep_service_kinds")}
+                   "osm_keep_service_kinds": ("osm", "keep_service_kinds"), "capacity": None, "facilities": None}
 
 
 def _settings_problem(settings) -> str | None:
@@ -356,9 +382,12 @@ def _traversals(rec: dict) -> tuple[Traversal, ...]:
 
 def _route(rec: dict, depot: int) -> Route:
     tot = rec["totals"]
-    totals = RouteTotals(**{k: tot[k] for k in _TOTALS}, wait_min=tot.get("wait_min", 0.0))
+    totals = RouteTotals(**{k: tot[k] for k in _TOTALS}, wait_min=tot.get("wait_min", 0.0),
+                         visit_min=tot.get("visit_min", 0.0))
+    visits = tuple(Visit(v["after"], v["facility"], v["node"], v["arrive_min"], v["wait_min"], v["minutes"],
+                         tuple(v["resets"])) for v in rec.get("visits", ()))
     return Route(depot, _traversals(rec), totals, str(rec.get("method", "")), bool(rec.get("exact", False)),
-                 rec.get("lower_bound_min", 0.0), day=rec.get("day"), start_min=rec.get("start_min"))
+                 rec.get("lower_bound_min", 0.0), day=rec.get("day"), start_min=rec.get("start_min"), visits=visits)
 
 
 def _crew(rec: dict) -> CrewPlan:

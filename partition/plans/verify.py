@@ -24,7 +24,8 @@ In order, the first violation found is reported:
    the defer list and its policy (:mod:`crewcut.plans.verify_settings`);
 4. territories, routes, traversals, turns, forbidden turns (the network file's
    turn restrictions), route totals, coverage
-   (:mod:`crewcut.plans.verify_routes`);
+   (:mod:`crewcut.plans.verify_routes`); with capacities, the loads, facility
+   visits and their hours (:mod:`crewcut.plans.verify_trips`);
 5. the summary's figures, the crews over their limits, the lower bound and the
    gap (:mod:`crewcut.plans.verify_figures`).
 
@@ -45,6 +46,7 @@ from crewcut.plans.verify_figures import check_figures
 from crewcut.plans.verify_cycle import check_cycle
 from crewcut.plans.verify_network import check_network
 from crewcut.plans.verify_routes import check_routes
+from crewcut.plans.verify_trips import check_trips
 from crewcut.plans.verify_scope import scope_truth
 from crewcut.plans.verify_settings import check_crews, check_deferred, check_profile, profile_differences
 from crewcut.plans.violation import Violation
@@ -133,7 +135,8 @@ def _checks(plan: Plan, net: Network, profile: Profile, from_config: bool, area:
         yield v
         return
     deferred = {d.segment for d in plan.deferred or ()}
-    for part in (check_routes(plan, net, profile, deferred), check_cycle(plan, net, profile),
+    for part in (check_routes(plan, net, profile, deferred), check_trips(plan, net, profile),
+                 check_cycle(plan, net, profile),
                  check_figures(plan, net, profile)):
         v = next(part, None)
         if v is not None:

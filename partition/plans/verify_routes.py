@@ -187,10 +187,11 @@ def _route(plan: Plan, net: Network, profile: Profile, model: TurnModel, ci: int
     tot = route.totals
     n = len(trs)
     wait = sum(float(t.wait_minutes) for t in trs)
+    visit = sum(float(v.wait_min) + float(v.minutes) for v in route.visits)  # trips: facility stops
     pairs = (("service_km", m_s / 1000, TOL_M), ("deadhead_km", m_d / 1000, TOL_M),
              ("service_min", min_s, TOL_MIN), ("deadhead_min", min_d, TOL_MIN),
-             ("turn_min", turn, TOL_MIN), ("wait_min", wait, TOL_MIN),
-             ("total_min", min_s + min_d + turn + wait, TOL_MIN))
+             ("turn_min", turn, TOL_MIN), ("wait_min", wait, TOL_MIN), ("visit_min", visit, TOL_MIN),
+             ("total_min", min_s + min_d + turn + wait + visit, TOL_MIN))
     for key, got, unit in pairs:
         value = float(getattr(tot, key))
         if abs(value - got) > total_tol(n, unit) or not np.isfinite(value):

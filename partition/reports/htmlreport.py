@@ -18,7 +18,7 @@ from crewcut.reports.caution import CAUTION
 from crewcut.reports.sheets import crew_sheets, html_document, to_html_section
 from crewcut.reports.textsafety import html_text
 from crewcut.reports.svgmap import crew_colours, route_svg, territory_svg
-from crewcut.reports.workload import COLUMNS, fmt, summary_lines, workload_rows
+from crewcut.reports.workload import columns, fmt, summary_lines, workload_rows
 
 REPORT_CSS = """
 h1 { font-size: 1.6em; margin: 0 0 0.2em 0; }
@@ -52,12 +52,13 @@ def _load_table(pv: PlanView) -> str:
     e = html_text
     colours = crew_colours(pv)
     rows = workload_rows(pv)
-    head = "".join(f"<th>{e(h)}</th>" for _k, h, _j in COLUMNS)
+    cols = columns(pv)
+    head = "".join(f"<th>{e(h)}</th>" for _k, h, _j in cols)
     body = []
     for r in rows:
         cls = "total" if r["row"] == "total" else ("over" if r["over_limit_min"] > 0 else "")
         tds = []
-        for k, _h, j in COLUMNS:
+        for k, _h, j in cols:
             text = e(fmt(k, r[k]))
             if k == "crew" and r["row"] == "crew":
                 text = f'<span class="chip" style="background:{colours[r["crew"]]}"></span>{text}'

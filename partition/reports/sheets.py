@@ -119,7 +119,22 @@ def route_sheet(pv: Plan | PlanView, crew: CrewPlan, route: Route, name: str | N
     lines.append(SheetLine("start", street=f"start at the depot, {depot_name}"))
     elapsed = 0.0
     cur: SheetLine | None = None
-    for i, st in enumerate(steps):
+    caps = pv.plan.settings.profile.capacities
+    load = [0.0] * len(caps)
+    visits = {}
+    for v in route.visits:
+        visits.setdefault(v.after, []).append(v)
+    for i, st in enumerate(steps + [None]):
+        for v in visits.get(i, ()):
+            elapsed += v.wait_min + v.minutes
+            lines.append(SheetLine("visit", street=_visit_text(v, caps, load), elapsed_min=elapsed))
+            load = [0.0 if c.name in v.resets else x for c, x in zip(caps, load)]
+            cur = None
+        if st is None:
+            break
+        if st.service:
+            seg = pv.segments[st.segment]
+            load = [x + c.rate(seg.road_class) * seg.length_m / 1000.0 for c, x in zip(caps, load)]
         name = pv.segments[st.segment].name or ""
         mode = "serve" if st.service else "drive"
         if st.wait_minutes:  # a posted window not yet open: the wait gets a line of its own
@@ -138,7 +153,8 @@ def route_sheet(pv: Plan | PlanView, crew: CrewPlan, route: Route, name: str | N
         elapsed += st.minutes + st.turn_minutes
         cur.elapsed_min = elapsed
     for ln in lines[1:]:
-        ln.heading = _heading(pv, route, ln.traversals)
+        if ln.kind == "step":
+            ln.heading = _heading(pv, route, ln.traversals)
     end_ok = not steps or steps[-1].to_node == depot
     lines.append(SheetLine("end", street=("back at the depot, " if end_ok else "route ends away from the depot, ")
                            + (depot_name if end_ok else pv.node_name(steps[-1].to_node)), elapsed_min=elapsed))
@@ -148,6 +164,13 @@ def route_sheet(pv: Plan | PlanView, crew: CrewPlan, route: Route, name: str | N
                  service_km=sum(s.metres for s in steps if s.service) / 1000.0,
                  deadhead_km=sum(s.metres for s in steps if not s.service) / 1000.0,
                  day=route.day, start_min=route.start_min, wait_min=float(route.totals.wait_min))
+
+
+def _visit_text(v, caps, load) -> str:
+    held = ", ".join(f"{c.name} {x:.2f} {c.unit}".rstrip() for c, x in zip(caps, load))
+    wait = f", wait {hmm(v.wait_min)} h:mm for it to open" if v.wait_min > 0.5 else ""
+    return (f"stop at facility {v.facility}: arrive {clock(v.arrive_min)}{wait}, stay {v.minutes:g} min, "
+            f"reset {', '.join(v.resets)}; load on arrival {held}")
 
 
 def crew_sheets(pv: Plan | PlanView, crews: list[CrewPlan] | tuple[CrewPlan, ...]) -> list[Sheet]:
@@ -199,6 +222,9 @@ def _intro(sheet: Sheet) -> list[str]:
     out += [f"Shift: {hmm(sheet.total_min)} h:mm ({sheet.total_min:.1f} min); serve {sheet.service_km:.2f} km, "
             f"drive without serving {sheet.deadhead_km:.2f} km; {n} lines",
             f"Caution: {CAUTION}"]
+    if any(ln.kind == "visit" for ln in sheet.lines):
+        out.append("Facility stops: loads are estimates from the profile's rates per km, not weighed; the site's own "
+                   "hours, access and weight rules, and the vehicle's legal load limits, come first.")
     return out
 
 

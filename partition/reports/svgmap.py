@@ -145,6 +145,26 @@ def _depot_marks(pv: PlanView, fr: _Frame, crews: list[CrewPlan] | tuple[CrewPla
     return out
 
 
+def _facility_marks(fr: _Frame, crews, esc: XmlEscaper) -> list[str]:
+    """A diamond at every facility the crews' routes stop at, labelled with its id (plans with trips only)."""
+    by_node: dict[int, set[str]] = {}
+    for c in crews:
+        for r in c.routes:
+            for v in r.visits:
+                by_node.setdefault(v.node, set()).add(v.facility)
+    out = []
+    for node in sorted(by_node):
+        x, y = fr.node_px[node]
+        out.append(f'<polygon points="{x:.1f},{y - 9:.1f} {x + 9:.1f},{y:.1f} {x:.1f},{y + 9:.1f} {x - 9:.1f},{y:.1f}" '
+                   f'fill="#ffffff" stroke="{INK}" stroke-width="2.5"/>')
+        out.append(f'<text x="{x + 11:.1f}" y="{y - 8:.1f}" font-size="11" fill="{INK}" stroke="#ffffff" '
+                   f'stroke-width="3" paint-order="stroke">facility: {esc.text(", ".join(sorted(by_node[node])))}</text>')
+    return out
+
+
+_DIAMOND = f'<polygon points="13,0 20,6.5 13,13 6,6.5" fill="#ffffff" stroke="{INK}" stroke-width="2.5"/>'
+
+
 def _svg(width: int, height: int, body: list[str], title: str, standalone: bool, esc: XmlEscaper) -> SafeText:
     head = '<?xml version="1.0" encoding="UTF-8"?>\n' if standalone else ""
     label, shown = esc.attr(title), esc.text(title)
@@ -201,6 +221,8 @@ def territory_map(pv: Plan | PlanView, standalone: bool = True) -> SafeText:
         body += [f'<path d="{_path(fr.seg(s))}"/>' for s in sorted(c.territory) if owner.get(s) == c.id]
         body.append("</g>")
     body += _depot_marks(pv, fr, pv.crews, esc)
+    marks = _facility_marks(fr, pv.crews, esc)
+    body += marks
     body.append(_scale_bar(fr))
     from crewcut.reports.workload import workload_rows
     rows = {r["crew"]: r for r in workload_rows(pv) if r["row"] == "crew"}
@@ -219,7 +241,9 @@ def territory_map(pv: Plan | PlanView, standalone: bool = True) -> SafeText:
     body.append(_legend_row(y, f'<path d="M0,6.5 H26" stroke="{BACKGROUND}" stroke-width="2"/>', "no crew (not served)", esc))
     body.append(_legend_row(y + 20, f'<rect x="6" y="0" width="13" height="13" fill="#ffffff" stroke="{INK}" '
                                     f'stroke-width="2.5"/>', "depot", esc))
-    height = max(fr.height, int(y) + 60)
+    if marks:
+        body.append(_legend_row(y + 40, _DIAMOND, "facility (dump site, water point, salt depot)", esc))
+    height = max(fr.height, int(y) + 60 + (20 if marks else 0))
     return _svg(WIDTH + LEGEND_W, height, body, f"Territories - {len(pv.crews)} crews", standalone, esc)
 
 
@@ -265,6 +289,8 @@ def route_map(pv: Plan | PlanView, crew: CrewPlan, standalone: bool = True) -> S
     body.append("</g>")
     body += arrows
     body += _depot_marks(pv, fr, [crew], esc)
+    marks = _facility_marks(fr, [crew], esc)
+    body += marks
     body.append(_scale_bar(fr))
     y = 44.0
     body.append(_legend_row(y, f'<path d="M0,6.5 H26" stroke="{colour}" stroke-width="3.6"/>',
@@ -278,7 +304,10 @@ def route_map(pv: Plan | PlanView, crew: CrewPlan, standalone: bool = True) -> S
     body.append(_legend_row(y + 80, f'<rect x="6" y="0" width="13" height="13" fill="#ffffff" stroke="{INK}" '
                                     f'stroke-width="2.5"/>', "depot (start and end)", esc))
     shift = sum(st.minutes + st.turn_minutes for r in crew.routes for st in r.traversals)
+    shift += sum(v.wait_min + v.minutes for r in crew.routes for v in r.visits)
     body.append(_legend_row(y + 108, "", f"shift {shift / 60:.2f} h", esc))
+    if marks:
+        body.append(_legend_row(y + 128, _DIAMOND, "facility stop", esc))
     return _svg(WIDTH + LEGEND_W, max(fr.height, 240), body, f"Route - {crew.id}", standalone, esc)
 
 

@@ -8,7 +8,7 @@ The terminal table is drawn by the command line from the same rows.
 Definitions (minutes and metres from the traversals, summed over a crew's routes):
 service km / h: traversals in ``service`` mode; driving h: deadhead minutes plus
 turn delays (and, in a cycle plan, waits for posted windows), so that service h +
-driving h = shift h; in a cycle plan the shift is the whole cycle's and its limit
+driving h (+ hours at facilities, in a plan with trips) = shift h; in a cycle plan the shift is the whole cycle's and its limit
 the shift limit times the crew's day routes; deadhead %: deadhead
 distance over all distance driven; % of limit: shift over the crew's shift limit.
 The lower bound and gap come from the plan's ``summary`` (keys
@@ -45,16 +45,56 @@ COLUMNS: tuple[tuple[str, str, str], ...] = (
     ("shift_h", "shift (h)", "right"),
     ("limit_pct", "shift limit used (%)", "right"),
 )
+# Trips (plans whose routes stop at facilities): inserted before the shift, only then
+TRIP_COLUMNS: tuple[tuple[str, str, str], ...] = (
+    ("trips", "trips (count)", "right"),
+    ("visits", "facility visits (count)", "right"),
+    ("facility_h", "at facilities (h)", "right"),
+    ("unloaded", "used by service", "left"),
+)
 TEXT_FORMATS = ("csv", "md", "json")
 DECIMALS = {"service_km": 2, "deadhead_km": 2, "deadhead_pct": 1, "service_h": 2, "driving_h": 2,
-            "shift_h": 2, "limit_pct": 1}
+            "shift_h": 2, "limit_pct": 1, "facility_h": 2}
+
+
+def has_trips(plan: Plan | PlanView) -> bool:
+    """Does any route of the plan stop at a facility?"""
+    return any(r.visits for c in view(plan).crews for r in c.routes)
+
+
+def columns(plan: Plan | PlanView) -> tuple[tuple[str, str, str], ...]:
+    """:data:`COLUMNS`, with :data:`TRIP_COLUMNS` before the shift when the plan has trips."""
+    if not has_trips(plan):
+        return COLUMNS
+    i = [k for k, _h, _j in COLUMNS].index("shift_h")
+    return COLUMNS[:i] + TRIP_COLUMNS + COLUMNS[i:]
+
+
+def _amounts(pv: PlanView, crew: CrewPlan) -> str:
+    """The amount of each capacity the crew's service uses in all (rate per km x pass length)."""
+    caps = pv.plan.settings.profile.capacities
+    total = [0.0] * len(caps)
+    for r in crew.routes:
+        for t in r.traversals:
+            if t.service:
+                seg = pv.segments[t.segment]
+                for c, cap in enumerate(caps):
+                    total[c] += cap.rate(seg.road_class) * seg.length_m / 1000.0
+    return "; ".join(f"{c.name} {v:.1f} {c.unit}".strip() for c, v in zip(caps, total))
+
+
+def trips_of(route) -> int:
+    """Trips of a route: the stretches between facility visits that serve at least one pass."""
+    cuts = sorted({v.after for v in route.visits})
+    bounds = [0] + cuts + [len(route.traversals)]
+    return sum(any(t.service for t in route.traversals[a:b]) for a, b in zip(bounds, bounds[1:]))
 
 
 def _pct(a: float, b: float) -> float:
     return 0.0 if b <= 0 else 100.0 * a / b
 
 
-def _crew_row(pv: PlanView, crew: CrewPlan) -> dict:
+def _crew_row(pv: PlanView, crew: CrewPlan, trips: bool = False) -> dict:
     s_m = d_m = s_min = d_min = turn_min = 0.0
     u = across = 0
     for route in crew.routes:
@@ -69,7 +109,8 @@ def _crew_row(pv: PlanView, crew: CrewPlan) -> dict:
             u += st.turn == "u_turn"
             across += st.turn == "across_traffic"
     wait_min = sum(r.totals.wait_min for r in crew.routes)
-    shift = s_min + d_min + turn_min + wait_min
+    visit_min = sum(r.totals.visit_min for r in crew.routes)
+    shift = s_min + d_min + turn_min + wait_min + visit_min
     day_routes = [r for r in crew.routes if r.day is not None]
     # a cycle plan's crew works one shift per day route: its limit over the cycle, over the day the worst day
     limit = float(crew.shift_limit_min or 0.0) * max(1, len(day_routes))
@@ -86,6 +127,8 @@ def _crew_row(pv: PlanView, crew: CrewPlan) -> dict:
         "driving_h": (d_min + turn_min + wait_min) / 60.0,
         "u_turns": u,
         "across_turns": across,
+        **({"trips": sum(trips_of(r) for r in crew.routes), "visits": sum(len(r.visits) for r in crew.routes),
+            "facility_h": visit_min / 60.0, "unloaded": _amounts(pv, crew)} if trips else {}),
         "shift_h": shift / 60.0,
         "shift_limit_h": limit / 60.0,
         "limit_pct": _pct(shift, limit),
@@ -99,10 +142,11 @@ def workload_rows(plan: Plan | PlanView) -> list[dict]:
     Keys carry their unit (``_km``, ``_h``, ``_pct``, ``_min``); counts are ints.
     """
     pv = view(plan)
-    rows = [_crew_row(pv, c) for c in pv.crews]
-    tot = {"row": "total", "crew": "all crews", "depot": ""}
+    trips = has_trips(pv)
+    rows = [_crew_row(pv, c, trips) for c in pv.crews]
+    tot = {"row": "total", "crew": "all crews", "depot": "", "unloaded": ""}
     for key in ("segments", "service_km", "deadhead_km", "service_h", "driving_h", "u_turns", "across_turns",
-                "shift_h", "shift_limit_h", "over_limit_min"):
+                "shift_h", "shift_limit_h", "over_limit_min") + (("trips", "visits", "facility_h") if trips else ()):
         tot[key] = sum(r[key] for r in rows)
     tot["deadhead_pct"] = _pct(tot["deadhead_km"], tot["service_km"] + tot["deadhead_km"])
     tot["limit_pct"] = _pct(tot["shift_h"], tot["shift_limit_h"])
@@ -181,11 +225,12 @@ def workload_text(plan: Plan | PlanView, form: str) -> str:
         summ = workload_summary(pv)
         summ = {**rnd(summ), "over_limit": [rnd(o) for o in summ["over_limit"]]}
         rows = [rnd(r) for r in rows]
-        doc = {"columns": {k: h for k, h, _ in COLUMNS}, "rows": rows, "summary": summ}
+        doc = {"columns": {k: h for k, h, _ in columns(pv)}, "rows": rows, "summary": summ}
         return json.dumps(doc, ensure_ascii=False, indent=1, sort_keys=False) + "\n"
-    cells = [[fmt(k, r[k]) for k, _h, _j in COLUMNS] for r in rows]
-    headers = [h for _k, h, _j in COLUMNS]
-    text_cols = [i for i, (_k, _h, j) in enumerate(COLUMNS) if j == "left"]  # crew, depot: the user's text
+    cols = columns(pv)
+    cells = [[fmt(k, r[k]) for k, _h, _j in cols] for r in rows]
+    headers = [h for _k, h, _j in cols]
+    text_cols = [i for i, (_k, _h, j) in enumerate(cols) if j == "left"]  # crew, depot: the user's text
     if form == "csv":
         buf = io.StringIO()
         w = csv.writer(buf, lineterminator="\n")
@@ -196,7 +241,7 @@ def workload_text(plan: Plan | PlanView, form: str) -> str:
     # Markdown: a pipe table, numbers right-aligned, then the summary lines
     esc = markdown_text
     out = ["| " + " | ".join(esc(h) for h in headers) + " |",
-           "|" + "|".join(":---" if j == "left" else "---:" for _k, _h, j in COLUMNS) + "|"]
+           "|" + "|".join(":---" if j == "left" else "---:" for _k, _h, j in cols) + "|"]
     for r, c in zip(rows, cells):
         c = [f"**{esc(x)}**" if r["row"] == "total" and x else esc(x) for x in c]
         out.append("| " + " | ".join(c) + " |")

@@ -59,9 +59,17 @@ def run(args, ui) -> int:
 
     scope = run_scope(net, profile, [depot], area, args.unservable)
     net = scope.network
+    if profile.capacities:  # trips: the settings checked before any work
+        from crewcut.solve.trips.checks import check_trips
+
+        check_trips(net, profile, [depot], [float(shift if shift is not None else profile.shift_limit_min)])
     with ui.progress() as bar:
         task = bar.add_task("planning the route", total=None)
         route = plan_route(net, profile, depot, turn_aware=not args.plain, seed=args.seed)
+        if profile.capacities:
+            from crewcut.solve.trips.route_trips import with_trips
+
+            route = with_trips(net, profile, route)
         bar.update(task, completed=1, total=1)
     territory = np.flatnonzero(required_passes(net, profile).total > 0).tolist()
     crew = CrewPlan(Crew(crew_id or "crew-1", float(shift if shift is not None else profile.shift_limit_min),
