@@ -35,11 +35,11 @@ from scipy.sparse.csgraph import dijkstra
 
 from crewcut.solve.calendar.clock import window_misses, with_waits
 from crewcut.solve.circuits.bans import BanTable
-from crewcut.solve.circuits.turns import TurnModel
+from crewcut.solve.circuits.turns import TurnModel, turns_along_walk
 from crewcut.solve.network.model import Network
 from crewcut.solve.postman.tasks import build_deadhead
 from crewcut.solve.profile import Profile
-from crewcut.solve.result import TURNS, Route, RouteTotals, Traversal
+from crewcut.solve.result import Route, RouteTotals, Traversal
 from crewcut.solve.route import plan_route
 
 
@@ -88,7 +88,7 @@ def plan_day_route(net: Network, profile: Profile, depot: int, segments, start_m
             groups = order[:pos] + ([free] if free else []) + order[pos:]
             walk = _chain(net, profile, depot, groups, paths, subs, turn_aware, time_limit_s, seed)
             if not _forbidden(net, walk, depot):  # the joins take no turn a restriction forbids
-                cands.append((_returned(net, walk, turns), "window blocks joined by least-minute paths; heuristic",
+                cands.append((turns_along_walk(net, turns, walk), "window blocks joined by least-minute paths; heuristic",
                               False))
     best = None
     for i, (trav, method, exact) in enumerate(cands):
@@ -191,17 +191,3 @@ def _forbidden(net: Network, walk: list[Traversal], depot: int) -> bool:
     at = np.array([t.to_node for t in walk[:-1]], np.int64)
     hit = bans.banned(seg[:-1], fwd[:-1], seg[1:], fwd[1:]) & (at != depot)
     return bool(hit.any())
-
-
-def _returned(net: Network, walk: list[Traversal], turns: TurnModel) -> list[Traversal]:
-    """The walk with every turn classified again from its neighbours (the first is the start)."""
-    if not walk:
-        return walk
-    seg = np.array([t.segment for t in walk], np.int64)
-    fwd = np.array([t.from_node for t in walk], np.int64) == net.seg_u[seg]
-    codes = np.zeros(len(walk), np.int64)
-    codes[1:] = turns.classify(seg[:-1], fwd[:-1], seg[1:], fwd[1:])
-    sec = turns.seconds(codes)
-    sec[0] = 0.0
-    return [replace(t, turn=TURNS[int(c)], turn_minutes=float(s) / 60.0) for t, c, s in zip(walk, codes, sec)]
-

@@ -108,3 +108,19 @@ class TurnModel:
     def pair_seconds(self, arr_seg, arr_fwd, dep_seg, dep_fwd) -> np.ndarray:
         """Penalty seconds for arrays of (arriving, departing) traversals."""
         return self.seconds(self.classify(arr_seg, arr_fwd, dep_seg, dep_fwd))
+
+
+def turns_along_walk(net: Network, model: TurnModel, walk: list) -> list:
+    """A walk of :class:`~crewcut.solve.result.Traversal` with every turn classified again from its
+    neighbours (the first is the start): for walks joined from pieces (window blocks, trips)."""
+    from dataclasses import replace
+
+    if not walk:
+        return list(walk)
+    seg = np.array([t.segment for t in walk], np.int64)
+    fwd = np.array([t.from_node for t in walk], np.int64) == net.seg_u[seg]
+    codes = np.zeros(len(walk), np.int64)
+    codes[1:] = model.classify(seg[:-1], fwd[:-1], seg[1:], fwd[1:])
+    sec = model.seconds(codes)
+    sec[0] = 0.0
+    return [replace(t, turn=TURNS[int(c)], turn_minutes=float(x) / 60.0) for t, c, x in zip(walk, codes, sec)]

@@ -34,11 +34,11 @@ import numpy as np
 
 from crewcut.solve.calendar.postings import clock
 from crewcut.solve.circuits.bans import BanTable
-from crewcut.solve.circuits.turns import TurnModel
+from crewcut.solve.circuits.turns import TurnModel, turns_along_walk
 from crewcut.solve.errors import InputError
 from crewcut.solve.network.model import Network
 from crewcut.solve.profile import Profile
-from crewcut.solve.result import TURNS, Route, RouteTotals, Traversal, Visit
+from crewcut.solve.result import Route, RouteTotals, Traversal, Visit
 from crewcut.solve.trips.loads import pass_demand
 from crewcut.solve.trips.place import PlacedFacility, TripPaths
 from crewcut.solve.trips.split import CutOption, split_sequence
@@ -154,7 +154,7 @@ def split_route(net: Network, profile: Profile, route: Route, placed: tuple[Plac
                 out.extend(paths.from_facility(f, nxt))
         if k + 1 < m:
             out.append(tr[svc[k + 1]])
-    out = _turns_again(net, model, out)
+    out = turns_along_walk(net, model, out)
     visits = _clock_visits(out, visits, placed, start_min)
     bans = BanTable.of(net)
     if bans is not None and _forbidden(net, bans, out, route.depot):
@@ -188,15 +188,6 @@ def trip_lower_bound(postman_lb: float, demand: np.ndarray, caps, placed) -> flo
     stay = min((p.facility.minutes for p in placed), default=0.0)
     return float(postman_lb) + need * stay
 
-
-def _turns_again(net: Network, model: TurnModel, walk: list[Traversal]) -> list[Traversal]:
-    seg = np.array([t.segment for t in walk], np.int64)
-    fwd = np.array([t.from_node for t in walk], np.int64) == net.seg_u[seg]
-    codes = np.zeros(len(walk), np.int64)
-    codes[1:] = model.classify(seg[:-1], fwd[:-1], seg[1:], fwd[1:])
-    sec = model.seconds(codes)
-    sec[0] = 0.0
-    return [replace(t, turn=TURNS[int(c)], turn_minutes=float(s) / 60.0) for t, c, s in zip(walk, codes, sec)]
 
 
 def _clock_visits(walk: list[Traversal], visits: list[Visit], placed, start_min: float) -> list[Visit]:
