@@ -102,3 +102,18 @@ def test_no_import_circle_at_module_level():
         if n not in state:
             cyc = visit(n, [])
             assert cyc is None, "import circle: " + " -> ".join(cyc)
+
+
+def test_every_package_is_installed():
+    """A non-editable install (CI, a user's `pip install .`) ships only the packages pyproject lists."""
+    import tomllib
+
+    root = Path(__file__).resolve().parent.parent
+    listed = set(tomllib.loads((root / "pyproject.toml").read_text())["tool"]["setuptools"]["packages"])
+    found = set()
+    for top, name in (("partition", "crewcut"), ("solve", "crewcut.solve")):
+        for init in (root / top).rglob("__init__.py"):
+            rel = init.parent.relative_to(root / top).parts
+            found.add(".".join((name,) + rel))
+    missing = sorted(found - listed)
+    assert not missing, f"packages missing from pyproject.toml [tool.setuptools] packages: {missing}"
