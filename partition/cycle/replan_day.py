@@ -34,7 +34,7 @@ from crewcut.cycle.planner import cycle_summary
 from crewcut.fleet.changes import Changes
 from crewcut.fleet.executor import LocalRouter
 from crewcut.fleet.replan import replan
-from crewcut.plans.model import Change, CrewPlan, History, Plan, RunOptions
+from crewcut.plans.model import CrewPlan, History, Plan, RunOptions
 from crewcut.plans.planfile import build_plan, plan_digest
 from crewcut.plans.verify import profile_of_plan
 
@@ -138,4 +138,3 @@ def _merge(plan: Plan, net: Network, profile: Profile, day: str, new_day: Plan) 
                       left_out=plan.left_out)
 
 
-__all__ = ["replan_day", "Change"]
