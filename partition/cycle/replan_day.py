@@ -136,5 +136,3 @@ def _merge(plan: Plan, net: Network, profile: Profile, day: str, new_day: Plan) 
     return build_plan(net, profile, crews, source=new_day.network.source, options=options, summary=summary,
                       history=history, deferred=list(deferred) if deferred is not None else None,
                       left_out=plan.left_out)
-
-
